@@ -1,0 +1,21 @@
+/* mesh_int.h: declarations shared by the files of mesh/ only. */
+#ifndef DPZ_MESH_MESH_INT_H
+#define DPZ_MESH_MESH_INT_H
+
+#include <stddef.h>
+
+#include "dpz_common.h"
+#include "dpz_grid.h"
+
+/* pi to double precision (M_PI is not part of strict C17). */
+#define DPZ_PI 3.14159265358979323846
+
+/* Reads a whole file into a new NUL-terminated buffer (dpz__free it); *len excludes the
+ * NUL. `who` prefixes error messages ("vtk reader"). */
+dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
+                                size_t *len, dpz_err *err);
+
+/* Base name of a path, for messages. */
+const char *dpz__basename(const char *path);
+
+#endif

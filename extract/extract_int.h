@@ -1,0 +1,29 @@
+/* extract_int.h: declarations shared by the files of extract/ only. */
+#ifndef DPZ_EXTRACT_EXTRACT_INT_H
+#define DPZ_EXTRACT_EXTRACT_INT_H
+
+#include <complex.h>
+#include <stddef.h>
+
+#include "dpz_common.h"
+#include "dpz_grid.h"
+
+/* pi to double precision (M_PI is not part of strict C17). */
+#define DPZ_XPI 3.14159265358979323846
+
+/* Multipole origin of a setup-like request: `origin` when has_origin, else the centroid
+ * of the occupied voxel centres (grid frame, m). */
+void dpz__extract_origin(const dpz_grid *grid, int has_origin, const double origin[3],
+                         double out[3]);
+
+/* Spherical Bessel functions of the first kind j_0..j_nmax at real rho >= 0 (nmax + 1
+ * values), accurate for every order: the power series for rho < 1 and Miller's downward
+ * recursion normalized by sum (2n+1) j_n^2 = 1 (Abramowitz & Stegun 10.1.19 and 10.1.50)
+ * otherwise. */
+void dpz__sph_jn(double rho, size_t nmax, double *j);
+
+/* Spherical Bessel functions of the second kind y_0..y_nmax at rho > 0 by upward
+ * recursion (A&S 10.1.19), which is stable for y_n. */
+void dpz__sph_yn(double rho, size_t nmax, double *y);
+
+#endif

@@ -1,0 +1,380 @@
+/* test_solver_fftop.c: the FFT discrete-dipole operator against the dense operator built
+ * from the same kernel (an independent direct summation), the complex symmetry of the
+ * discrete-dipole matrix (reciprocity, Draine 1988 sec. II), thread independence, memory
+ * accounting and error paths. */
+#include <complex.h>
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "dpz_test.h"
+
+#include "dpz_dipole.h"
+#include "dpz_grid.h"
+#include "dpz_operator.h"
+
+/* FFT vs direct summation: both evaluate the same sums; the FFT adds O(log N eps)
+ * relative rounding, so 1e-12 relative to the largest entry leaves ample margin. */
+#define TOL_FFT 1e-12
+#define SPACING 2.385e-8 /* m */
+
+typedef enum { SHAPE_FULL, SHAPE_HALF, SHAPE_SPHERE_HOLES } shape_kind;
+
+static dpz_grid *make_grid(size_t nx, size_t ny, size_t nz, shape_kind shape)
+{
+    dpz_grid *g = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_grid_create(&g, nx, ny, nz, SPACING, 0, &err), DPZ_OK);
+    for (size_t i = 0; i < nx; i++)
+        for (size_t j = 0; j < ny; j++)
+            for (size_t l = 0; l < nz; l++) {
+                int on = 1;
+                if (shape == SHAPE_HALF)
+                    on = (i + 2 * j + 3 * l) % 3 != 1;
+                if (shape == SHAPE_SPHERE_HOLES) {
+                    double x = i - 0.5 * (nx - 1.0), y = j - 0.5 * (ny - 1.0),
+                           z = l - 0.5 * (nz - 1.0);
+                    on = x * x + y * y + z * z <= 3.2 * 3.2 && (i + j + l) % 5 != 0;
+                }
+                /* Two materials so that the diagonal is not uniform. */
+                g->label[dpz_grid_index(g, i, j, l)] = on ? (uint8_t)(1 + (i + j) % 2) : 0;
+            }
+    assert_int_equal(dpz_grid_update(g, &err), DPZ_OK);
+    return g;
+}
+
+static void inv_alpha_for(const dpz_grid *g, double k, dpz_dipole_model model,
+                          double complex *ia)
+{
+    double complex eps[256];
+    for (int i = 0; i < 256; i++)
+        eps[i] = 2.25;
+    eps[2] = -10.0 + 1.0 * I;
+    dpz_err err;
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, k, model, ia, &err), DPZ_OK);
+}
+
+static void random_vec(double complex *x, size_t n, uint64_t *seed)
+{
+    for (size_t i = 0; i < n; i++)
+        x[i] = CMPLX(dpz_test_rand(seed), dpz_test_rand(seed));
+}
+
+static double max_abs(const double complex *x, size_t n)
+{
+    double m = 0.0;
+    for (size_t i = 0; i < n; i++)
+        m = fmax(m, cabs(x[i]));
+    return m;
+}
+
+/* Compares the FFT and dense applications of A and of G for one grid, k and model. */
+static void compare_one(const dpz_grid *g, double k, dpz_dipole_model model, int threads)
+{
+    size_t n = 3 * g->n_occ;
+    double complex *ia = malloc(g->n_occ * sizeof *ia);
+    double complex *x = malloc(n * sizeof *x), *yf = malloc(n * sizeof *yf),
+                   *yd = malloc(n * sizeof *yd);
+    inv_alpha_for(g, k, model, ia);
+    uint64_t seed = 0x2385u + g->n_occ;
+    random_vec(x, n, &seed);
+    dpz_err err;
+    dpz_fftop *op = NULL;
+    dpz_denseop *dn = NULL;
+    dpz_op_opts opts = {threads, DPZ_PLAN_ESTIMATE};
+    assert_int_equal(dpz_fftop_create(&op, g, k, model, ia, &opts, &err), DPZ_OK);
+    assert_int_equal(dpz_denseop_create(&dn, g, k, model, ia, 0, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_apply(op, x, yf, &err), DPZ_OK);
+    assert_int_equal(dpz_denseop_apply(dn, x, yd, &err), DPZ_OK);
+    double scale = max_abs(yd, n);
+    for (size_t i = 0; i < n; i++)
+        assert_cclose_abs(yf[i], yd[i], TOL_FFT, scale);
+    /* G x alone: the dense matrix times x minus the diagonal part, negated. */
+    assert_int_equal(dpz_fftop_apply_green(op, x, yf, &err), DPZ_OK);
+    for (size_t i = 0; i < n; i++)
+        yd[i] = ia[i / 3] * x[i] - yd[i];
+    scale = fmax(max_abs(yd, n), 1e-300);
+    if (g->n_occ == 1) {
+        /* A single voxel has no partner: G x = 0 exactly. */
+        for (size_t i = 0; i < n; i++)
+            assert_true(cabs(yf[i]) <= TOL_FFT * cabs(ia[0] * x[i]));
+    } else {
+        for (size_t i = 0; i < n; i++)
+            assert_cclose_abs(yf[i], yd[i], 1e2 * TOL_FFT, scale);
+    }
+    dpz_fftop_destroy(op);
+    dpz_denseop_destroy(dn);
+    free(ia);
+    free(x);
+    free(yf);
+    free(yd);
+}
+
+static void compare_all_models(const dpz_grid *g)
+{
+    const dpz_dipole_model models[] = {DPZ_DIPOLE_CMRR, DPZ_DIPOLE_LDR, DPZ_DIPOLE_IGT};
+    /* k d = 0.3 (about 21 voxels per wavelength in the host) and the static kernel. */
+    const double ks[] = {0.0, 0.3 / SPACING};
+    for (int m = 0; m < 3; m++)
+        for (int q = 0; q < 2; q++)
+            compare_one(g, ks[q], models[m], 1);
+}
+
+static void test_fftop_matches_dense_odd_cube(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(3, 3, 3, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_matches_dense_even_partial(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(4, 4, 4, SHAPE_HALF);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_matches_dense_noncubic(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(2, 3, 5, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_matches_dense_single_voxel(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(1, 1, 1, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_matches_dense_line(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(1, 1, 7, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+    g = make_grid(6, 1, 1, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_matches_dense_sphere_holes(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(7, 7, 7, SHAPE_SPHERE_HOLES);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
+/* x^T A y = y^T A x: the discrete-dipole matrix is complex symmetric (reciprocity;
+ * Draine 1988, sec. II). */
+static void test_fftop_complex_symmetric(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(5, 4, 6, SHAPE_HALF);
+    size_t n = 3 * g->n_occ;
+    double complex *ia = malloc(g->n_occ * sizeof *ia), *x = malloc(n * sizeof *x),
+                   *y = malloc(n * sizeof *y), *ax = malloc(n * sizeof *ax),
+                   *ay = malloc(n * sizeof *ay);
+    uint64_t seed = 7;
+    random_vec(x, n, &seed);
+    random_vec(y, n, &seed);
+    const dpz_dipole_model models[] = {DPZ_DIPOLE_CMRR, DPZ_DIPOLE_LDR, DPZ_DIPOLE_IGT};
+    for (int m = 0; m < 3; m++) {
+        double k = 0.41 / SPACING;
+        inv_alpha_for(g, k, models[m], ia);
+        dpz_fftop *op = NULL;
+        dpz_err err;
+        assert_int_equal(dpz_fftop_create(&op, g, k, models[m], ia, NULL, &err), DPZ_OK);
+        assert_int_equal(dpz_fftop_apply(op, x, ax, &err), DPZ_OK);
+        assert_int_equal(dpz_fftop_apply(op, y, ay, &err), DPZ_OK);
+        double complex yAx = 0, xAy = 0;
+        double mag = 0;
+        for (size_t i = 0; i < n; i++) {
+            yAx += y[i] * ax[i];
+            xAy += x[i] * ay[i];
+            mag += cabs(y[i] * ax[i]);
+        }
+        assert_cclose_abs(yAx, xAy, TOL_FFT, mag);
+        dpz_fftop_destroy(op);
+    }
+    free(ia);
+    free(x);
+    free(y);
+    free(ax);
+    free(ay);
+    dpz_grid_destroy(g);
+}
+
+/* One thread and two threads give the same product to rounding. */
+static void test_fftop_threads_agree(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(6, 5, 7, SHAPE_HALF);
+    size_t n = 3 * g->n_occ;
+    double k = 0.27 / SPACING;
+    double complex *ia = malloc(g->n_occ * sizeof *ia), *x = malloc(n * sizeof *x),
+                   *y1 = malloc(n * sizeof *y1), *y2 = malloc(n * sizeof *y2);
+    inv_alpha_for(g, k, DPZ_DIPOLE_CMRR, ia);
+    uint64_t seed = 11;
+    random_vec(x, n, &seed);
+    dpz_err err;
+    dpz_fftop *a = NULL, *b = NULL;
+    dpz_op_opts o1 = {1, DPZ_PLAN_ESTIMATE}, o2 = {2, DPZ_PLAN_MEASURE};
+    assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_CMRR, ia, &o1, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_create(&b, g, k, DPZ_DIPOLE_CMRR, ia, &o2, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_apply(a, x, y1, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_apply(b, x, y2, &err), DPZ_OK);
+    double scale = max_abs(y1, n);
+    for (size_t i = 0; i < n; i++)
+        assert_cclose_abs(y2[i], y1[i], TOL_FFT, scale);
+    /* A repeated apply reuses the scratch: the result must not change. */
+    assert_int_equal(dpz_fftop_apply(b, x, y2, &err), DPZ_OK);
+    for (size_t i = 0; i < n; i++)
+        assert_cclose_abs(y2[i], y1[i], TOL_FFT, scale);
+    dpz_fftop_destroy(a);
+    dpz_fftop_destroy(b);
+    free(ia);
+    free(x);
+    free(y1);
+    free(y2);
+    dpz_grid_destroy(g);
+}
+
+/* Padded sizes are FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1; the memory
+ * estimate covers nine padded complex arrays (six kernel components, three work grids). */
+static void test_fftop_padding_and_memory(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(6, 11, 1, SHAPE_FULL);
+    double complex *ia = malloc(g->n_occ * sizeof *ia);
+    inv_alpha_for(g, 0.0, DPZ_DIPOLE_CMRR, ia);
+    dpz_fftop *op = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_fftop_create(&op, g, 0.0, DPZ_DIPOLE_CMRR, ia, NULL, &err), DPZ_OK);
+    size_t p[3];
+    dpz_fftop_padded_dims(op, p);
+    /* 2*6-1 = 11 -> 12; 2*11-1 = 21 = 3*7; 1 -> 1. */
+    assert_int_equal(p[0], 12);
+    assert_int_equal(p[1], 21);
+    assert_int_equal(p[2], 1);
+    size_t need = dpz_fftop_memory_need(g);
+    size_t ptot = p[0] * p[1] * p[2];
+    assert_true(need >= 9 * ptot * sizeof(double complex));
+    assert_true(need <= 9 * ptot * sizeof(double complex) + 200 * g->n_occ + 4096);
+    assert_int_equal(dpz_fftop_linop(op).n, 3 * g->n_occ);
+    dpz_fftop_destroy(op);
+    free(ia);
+    dpz_grid_destroy(g);
+}
+
+static void test_fftop_rejects_bad_input(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(3, 3, 3, SHAPE_FULL);
+    double complex *ia = malloc(g->n_occ * sizeof *ia);
+    inv_alpha_for(g, 0.0, DPZ_DIPOLE_CMRR, ia);
+    dpz_fftop *op = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_fftop_create(&op, g, -1.0, DPZ_DIPOLE_CMRR, ia, NULL, &err),
+                     DPZ_EINVAL);
+    assert_null(op);
+    assert_non_null(strstr(err.msg, "wavenumber"));
+    assert_int_equal(dpz_fftop_create(&op, g, NAN, DPZ_DIPOLE_CMRR, ia, NULL, &err),
+                     DPZ_EINVAL);
+    ia[4] = NAN;
+    assert_int_equal(dpz_fftop_create(&op, g, 0.0, DPZ_DIPOLE_CMRR, ia, NULL, &err),
+                     DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "voxel 4"));
+    dpz_denseop *dn = NULL;
+    assert_int_equal(dpz_denseop_create(&dn, g, 0.0, DPZ_DIPOLE_CMRR, ia, 10, &err),
+                     DPZ_ELIMIT);
+    /* An empty grid has nothing to operate on. */
+    memset(g->label, 0, 27);
+    assert_int_equal(dpz_grid_update(g, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_create(&op, g, 0.0, DPZ_DIPOLE_CMRR, ia, NULL, &err),
+                     DPZ_EINVAL);
+    assert_int_equal(dpz_denseop_create(&dn, g, 0.0, DPZ_DIPOLE_CMRR, ia, 0, &err),
+                     DPZ_EINVAL);
+    /* Host permittivity in an occupied label: zero polarizability, refused by name. */
+    dpz_grid_destroy(g);
+    g = make_grid(2, 2, 2, SHAPE_FULL);
+    double complex eps[256];
+    for (int i = 0; i < 256; i++)
+        eps[i] = 2.25;
+    eps[2] = 1.33 * 1.33;
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, 1e7, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "label 2"));
+    eps[2] = CMPLX(INFINITY, 0.0);
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, 1e7, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_EINVAL);
+    free(ia);
+    dpz_grid_destroy(g);
+}
+
+/* Every allocation of both operators fails cleanly (no leak under ASan, NULL output). */
+static void test_fftop_allocation_failure(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(3, 4, 2, SHAPE_FULL);
+    double complex *ia = malloc(g->n_occ * sizeof *ia);
+    inv_alpha_for(g, 1e7, DPZ_DIPOLE_CMRR, ia);
+    dpz_err err;
+    int failures = 0;
+    for (long n = 0;; n++) {
+        dpz_fftop *op = NULL;
+        dpz_alloc_fail_after(n);
+        dpz_status st = dpz_fftop_create(&op, g, 1e7, DPZ_DIPOLE_CMRR, ia, NULL, &err);
+        dpz_alloc_fail_after(-1);
+        if (st == DPZ_OK) {
+            dpz_fftop_destroy(op);
+            break;
+        }
+        assert_int_equal(st, DPZ_ENOMEM);
+        assert_null(op);
+        failures++;
+    }
+    assert_true(failures >= 6);
+    failures = 0;
+    for (long n = 0;; n++) {
+        dpz_denseop *op = NULL;
+        dpz_alloc_fail_after(n);
+        dpz_status st = dpz_denseop_create(&op, g, 1e7, DPZ_DIPOLE_CMRR, ia, 0, &err);
+        dpz_alloc_fail_after(-1);
+        if (st == DPZ_OK) {
+            dpz_denseop_destroy(op);
+            break;
+        }
+        assert_int_equal(st, DPZ_ENOMEM);
+        assert_null(op);
+        failures++;
+    }
+    assert_true(failures >= 3);
+    free(ia);
+    dpz_grid_destroy(g);
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_fftop_matches_dense_odd_cube),
+        cmocka_unit_test(test_fftop_matches_dense_even_partial),
+        cmocka_unit_test(test_fftop_matches_dense_noncubic),
+        cmocka_unit_test(test_fftop_matches_dense_single_voxel),
+        cmocka_unit_test(test_fftop_matches_dense_line),
+        cmocka_unit_test(test_fftop_matches_dense_sphere_holes),
+        cmocka_unit_test(test_fftop_complex_symmetric),
+        cmocka_unit_test(test_fftop_threads_agree),
+        cmocka_unit_test(test_fftop_padding_and_memory),
+        cmocka_unit_test(test_fftop_rejects_bad_input),
+        cmocka_unit_test(test_fftop_allocation_failure),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}

@@ -18,7 +18,8 @@
 /* Breakdown threshold: a Krylov scalar that is this small relative to the norms it is
  * built from carries no information (rounding level; common practice). */
 #define BREAKDOWN_TOL (1e3 * DBL_EPSILON)
-/* BiCGSTAB restarts with a fresh shadow residual after a breakdown at most this often. */
+/* BiCGSTAB restarts with a fresh shadow residual after a breakdown; this many restarts in
+ * a row without progress are reported as a breakdown. */
 #define MAX_RESTARTS 3
 
 struct dpz_iter {
@@ -32,8 +33,9 @@ struct dpz_iter {
     /* BiCGSTAB */
     double complex *rhat, *p, *v, *s, *t, *ph, *sh;
     double complex rho, alpha, omega;
-    int fresh; /* the next BiCGSTAB/COCG step starts a new recurrence */
-    int restarts;
+    int fresh;          /* the next BiCGSTAB/COCG step starts a new recurrence */
+    int restarts;       /* BiCGSTAB restarts without progress */
+    double restart_res; /* residual at the last BiCGSTAB restart */
     /* GMRES: basis V (m+1 vectors), Hessenberg H ((m+1) x m, column-major), rotations,
      * right-hand side g, position j in the cycle. */
     size_t m, j;
@@ -287,6 +289,7 @@ dpz_status dpz_iter_set(dpz_iter *it, const dpz_linop *A, const double complex *
     it->iterations = it->applies = 0;
     it->n_hist = 0;
     it->restarts = 0;
+    it->restart_res = INFINITY;
     it->use_jacobi = 0;
     if (it->opts.jacobi && A->diag) {
         it->use_jacobi = 1;
@@ -335,7 +338,8 @@ dpz_status dpz_iter_set(dpz_iter *it, const dpz_linop *A, const double complex *
         return DPZ_OK;
     }
     it->status = DPZ_CONTINUE;
-    return begin_cycle(it, err);
+    begin_cycle(it, err);
+    return DPZ_OK;
 }
 
 /* ---- bookkeeping
@@ -419,6 +423,12 @@ static dpz_status breakdown(dpz_iter *it, const char *what, dpz_err *err)
  * residual (a common remedy), a bounded number of times. */
 static dpz_status bicgstab_restart_or_fail(dpz_iter *it, const char *what, dpz_err *err)
 {
+    /* A restart that follows progress (a lower residual than at the previous restart) is
+     * the ordinary loss of bi-orthogonality on hard problems; only repeated restarts
+     * without progress are a breakdown. */
+    if (it->residual < 0.999 * it->restart_res)
+        it->restarts = 0;
+    it->restart_res = it->residual;
     if (it->restarts >= MAX_RESTARTS)
         return breakdown(it, what, err);
     it->restarts++;
@@ -658,6 +668,8 @@ dpz_status dpz_solve(const dpz_linop *A, const double complex *b, double complex
         for (size_t i = 0; i < A->n && zero; i++)
             zero = x[i] == 0.0;
         st = dpz_iter_set(it, A, b, zero ? NULL : x, err);
+        if (st == DPZ_OK)
+            st = it->status; /* DPZ_OK when x already solves the system */
     }
     while (st == DPZ_CONTINUE)
         st = dpz_iter_step(it, err);

@@ -1,0 +1,397 @@
+/* test_solver_iter.c: the Krylov solvers against a direct LU solve (LAPACKE zgesv) of the
+ * same discrete-dipole system, on spheres of dielectric (eps 2.25), high-index (12.25)
+ * and metallic (-10+1i) material; warm starts, iteration limits, breakdown, b = 0. */
+#include <complex.h>
+#include <float.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include <lapacke.h>
+
+#include "dpz_test.h"
+
+#include "dpz_dipole.h"
+#include "dpz_grid.h"
+#include "dpz_iter.h"
+#include "dpz_operator.h"
+
+#define SPACING 1.7e-8 /* m */
+#define TOL 1e-8
+
+typedef struct problem {
+    dpz_grid *g;
+    double complex *ia, *b, *xd; /* 1/alpha, right-hand side, direct solution */
+    dpz_fftop *op;
+    dpz_denseop *dn;
+    size_t n;
+    double kappa1; /* 1-norm condition number estimate (LAPACKE zgecon) */
+} problem;
+
+/* Sphere of radius R voxels (centres within R of the grid centre), eps relative to the
+ * host (n_h = 1), k such that k d = 0.2, incident plane wave x e^{ikz} (unit amplitude).
+ */
+static problem make_problem(double R, double complex eps, dpz_dipole_model model)
+{
+    problem P = {0};
+    size_t n1 = (size_t)(2 * R) + 1;
+    dpz_err err;
+    assert_int_equal(dpz_grid_create(&P.g, n1, n1, n1, SPACING, 0, &err), DPZ_OK);
+    for (size_t i = 0; i < n1; i++)
+        for (size_t j = 0; j < n1; j++)
+            for (size_t l = 0; l < n1; l++) {
+                double c = 0.5 * (n1 - 1.0);
+                double x = i - c, y = j - c, z = l - c;
+                P.g->label[dpz_grid_index(P.g, i, j, l)] = x * x + y * y + z * z <= R * R;
+            }
+    assert_int_equal(dpz_grid_update(P.g, &err), DPZ_OK);
+    double k = 0.2 / SPACING;
+    double complex epsl[256];
+    for (int i = 0; i < 256; i++)
+        epsl[i] = eps;
+    P.n = 3 * P.g->n_occ;
+    P.ia = malloc(P.g->n_occ * sizeof *P.ia);
+    P.b = calloc(P.n, sizeof *P.b);
+    P.xd = malloc(P.n * sizeof *P.xd);
+    assert_int_equal(dpz_operator_inv_alpha(P.g, epsl, 1.0, k, model, P.ia, &err),
+                     DPZ_OK);
+    for (size_t v = 0; v < P.g->n_occ; v++) {
+        double r[3];
+        dpz_grid_centre(P.g, P.g->occ[v], r);
+        P.b[3 * v] = cexp(CMPLX(0.0, k * r[2]));
+    }
+    assert_int_equal(dpz_fftop_create(&P.op, P.g, k, model, P.ia, NULL, &err), DPZ_OK);
+    assert_int_equal(dpz_denseop_create(&P.dn, P.g, k, model, P.ia, 0, &err), DPZ_OK);
+    memcpy(P.xd, P.b, P.n * sizeof *P.xd);
+    assert_int_equal(dpz_denseop_solve(P.dn, P.xd, 1, &err), DPZ_OK);
+    /* Condition number for the forward-error bound of the iterative solution. */
+    size_t nn;
+    const double complex *A = dpz_denseop_matrix(P.dn, &nn);
+    double complex *lu = malloc(nn * nn * sizeof *lu);
+    lapack_int *ipiv = malloc(nn * sizeof *ipiv);
+    memcpy(lu, A, nn * nn * sizeof *lu);
+    double anorm = LAPACKE_zlange(LAPACK_COL_MAJOR, '1', (lapack_int)nn, (lapack_int)nn,
+                                  A, (lapack_int)nn);
+    assert_int_equal(LAPACKE_zgetrf(LAPACK_COL_MAJOR, (lapack_int)nn, (lapack_int)nn, lu,
+                                    (lapack_int)nn, ipiv),
+                     0);
+    double rcond = 0;
+    assert_int_equal(LAPACKE_zgecon(LAPACK_COL_MAJOR, '1', (lapack_int)nn, lu,
+                                    (lapack_int)nn, anorm, &rcond),
+                     0);
+    P.kappa1 = 1.0 / rcond;
+    free(lu);
+    free(ipiv);
+    return P;
+}
+
+static void free_problem(problem *P)
+{
+    dpz_fftop_destroy(P->op);
+    dpz_denseop_destroy(P->dn);
+    dpz_grid_destroy(P->g);
+    free(P->ia);
+    free(P->b);
+    free(P->xd);
+}
+
+static double rel_diff(const double complex *x, const double complex *y, size_t n)
+{
+    double num = 0, den = 0;
+    for (size_t i = 0; i < n; i++) {
+        num += pow(cabs(x[i] - y[i]), 2);
+        den += pow(cabs(y[i]), 2);
+    }
+    return sqrt(num / den);
+}
+
+/* Solves with `kind` and checks: converged; the true residual (recomputed here with the
+ * dense matrix) is below the tolerance; the forward error against LU is below
+ * kappa_1 * tol. For a complex-symmetric A, ||A||_2 <= ||A||_1 and ||A^-1||_2 <=
+ * ||A^-1||_1, so ||x - x*||_2/||x*||_2 <= kappa_1 ||r||_2/||b||_2 (Higham, Accuracy and
+ * Stability of Numerical Algorithms, 2002, sec. 7.1); zgecon's estimate may be low by a
+ * small factor (Higham 2002, sec. 15.3), hence the factor 10. Returns the iterations. */
+static size_t solve_and_check(problem *P, dpz_solver_kind kind, dpz_status want)
+{
+    dpz_solve_opts o = dpz_solve_opts_default();
+    o.kind = kind;
+    o.tol = TOL;
+    double complex *x = calloc(P->n, sizeof *x), *ax = malloc(P->n * sizeof *ax);
+    dpz_solve_info info;
+    dpz_err err;
+    dpz_linop L = dpz_fftop_linop(P->op);
+    dpz_status st = dpz_solve(&L, P->b, x, &o, &info, &err);
+    assert_int_equal(st, want);
+    size_t iters = info.iterations;
+    if (want == DPZ_OK) {
+        assert_int_equal(info.status, DPZ_OK);
+        assert_true(info.residual <= TOL);
+        assert_int_equal(info.n_history, info.iterations);
+        assert_non_null(info.history);
+        assert_true(info.applies >= info.iterations);
+        assert_int_equal(dpz_denseop_apply(P->dn, x, ax, &err), DPZ_OK);
+        double rn = 0, bn = 0;
+        for (size_t i = 0; i < P->n; i++) {
+            rn += pow(cabs(P->b[i] - ax[i]), 2);
+            bn += pow(cabs(P->b[i]), 2);
+        }
+        /* The FFT and dense operators agree to ~1e-13, far below TOL. */
+        assert_true(sqrt(rn / bn) <= 1.01 * TOL);
+        assert_true(rel_diff(x, P->xd, P->n) <= 10.0 * P->kappa1 * TOL);
+    }
+    dpz_solve_info_free(&info);
+    free(x);
+    free(ax);
+    return iters;
+}
+
+static void test_iter_dielectric_sphere(void **state)
+{
+    (void)state;
+    problem P = make_problem(3.6, 2.25, DPZ_DIPOLE_CMRR);
+    solve_and_check(&P, DPZ_SOLVER_BICGSTAB, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_COCG, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_GMRES, DPZ_OK);
+    free_problem(&P);
+}
+
+static void test_iter_high_index_sphere(void **state)
+{
+    (void)state;
+    problem P = make_problem(3.6, 12.25, DPZ_DIPOLE_LDR);
+    solve_and_check(&P, DPZ_SOLVER_BICGSTAB, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_COCG, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_GMRES, DPZ_OK);
+    free_problem(&P);
+}
+
+static void test_iter_metal_sphere(void **state)
+{
+    (void)state;
+    problem P = make_problem(3.6, -10.0 + 1.0 * I, DPZ_DIPOLE_IGT);
+    solve_and_check(&P, DPZ_SOLVER_BICGSTAB, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_COCG, DPZ_OK);
+    solve_and_check(&P, DPZ_SOLVER_GMRES, DPZ_OK);
+    free_problem(&P);
+}
+
+/* Starting from the direct solution, the solvers stop at once (0 iterations) or after one
+ * iteration (when the rounding of the LU solution sits just above the tolerance). */
+static void test_iter_warm_start(void **state)
+{
+    (void)state;
+    problem P = make_problem(2.5, 2.25, DPZ_DIPOLE_CMRR);
+    const dpz_solver_kind kinds[] = {DPZ_SOLVER_BICGSTAB, DPZ_SOLVER_COCG,
+                                     DPZ_SOLVER_GMRES};
+    for (int q = 0; q < 3; q++) {
+        dpz_solve_opts o = dpz_solve_opts_default();
+        o.kind = kinds[q];
+        o.tol = TOL;
+        double complex *x = malloc(P.n * sizeof *x);
+        memcpy(x, P.xd, P.n * sizeof *x);
+        dpz_solve_info info;
+        dpz_linop L = dpz_fftop_linop(P.op);
+        assert_int_equal(dpz_solve(&L, P.b, x, &o, &info, NULL), DPZ_OK);
+        assert_true(info.iterations <= 1);
+        assert_true(rel_diff(x, P.xd, P.n) <= 10.0 * P.kappa1 * TOL);
+        dpz_solve_info_free(&info);
+        free(x);
+    }
+    free_problem(&P);
+}
+
+/* Two iterations cannot solve the system: DPZ_ENOCONV, with the iterate, the count and
+ * the history still readable. */
+static void test_iter_max_iter_reports_noconv(void **state)
+{
+    (void)state;
+    problem P = make_problem(3.1, 12.25, DPZ_DIPOLE_CMRR);
+    const dpz_solver_kind kinds[] = {DPZ_SOLVER_BICGSTAB, DPZ_SOLVER_COCG,
+                                     DPZ_SOLVER_GMRES};
+    for (int q = 0; q < 3; q++) {
+        dpz_solve_opts o = dpz_solve_opts_default();
+        o.kind = kinds[q];
+        o.max_iter = 2;
+        double complex *x = calloc(P.n, sizeof *x);
+        dpz_solve_info info;
+        dpz_err err;
+        dpz_linop L = dpz_fftop_linop(P.op);
+        assert_int_equal(dpz_solve(&L, P.b, x, &o, &info, &err), DPZ_ENOCONV);
+        assert_int_equal(err.code, DPZ_ENOCONV);
+        assert_non_null(strstr(err.msg, "did not reach"));
+        assert_int_equal(info.iterations, 2);
+        assert_int_equal(info.n_history, 2);
+        assert_true(info.residual > TOL && info.residual < 1.0);
+        dpz_solve_info_free(&info);
+        free(x);
+    }
+    free_problem(&P);
+}
+
+/* b = 0 gives x = 0 at once, whatever the initial guess. */
+static void test_iter_zero_rhs(void **state)
+{
+    (void)state;
+    problem P = make_problem(2.0, 2.25, DPZ_DIPOLE_CMRR);
+    double complex *b = calloc(P.n, sizeof *b), *x = malloc(P.n * sizeof *x);
+    for (size_t i = 0; i < P.n; i++)
+        x[i] = 2.385;
+    dpz_solve_info info;
+    dpz_linop L = dpz_fftop_linop(P.op);
+    assert_int_equal(dpz_solve(&L, b, x, NULL, &info, NULL), DPZ_OK);
+    assert_int_equal(info.iterations, 0);
+    assert_int_equal(info.applies, 0);
+    for (size_t i = 0; i < P.n; i++)
+        assert_true(x[i] == 0.0);
+    dpz_solve_info_free(&info);
+    free(b);
+    free(x);
+    free_problem(&P);
+}
+
+/* A = [[0, 1], [1, 0]], b = (1, 0): the first Krylov step gives rhat^H A r = 0 (BiCGSTAB)
+ * and r^T A r = 0 (COCG): a genuine breakdown that must be reported, not hidden. GMRES
+ * has no such breakdown and solves it (x = (0, 1)). */
+static dpz_status swap_apply(void *ctx, const double complex *x, double complex *y,
+                             dpz_err *err)
+{
+    (void)ctx;
+    (void)err;
+    y[0] = x[1];
+    y[1] = x[0];
+    return DPZ_OK;
+}
+
+static void test_iter_breakdown_detected(void **state)
+{
+    (void)state;
+    dpz_linop L = {2, NULL, swap_apply, NULL};
+    const double complex b[2] = {1.0, 0.0};
+    double complex x[2] = {0, 0};
+    dpz_solve_opts o = dpz_solve_opts_default();
+    dpz_err err;
+    dpz_solve_info info;
+    o.kind = DPZ_SOLVER_BICGSTAB;
+    assert_int_equal(dpz_solve(&L, b, x, &o, &info, &err), DPZ_EBREAKDOWN);
+    assert_non_null(strstr(err.msg, "broke down"));
+    dpz_solve_info_free(&info);
+    o.kind = DPZ_SOLVER_COCG;
+    x[0] = x[1] = 0;
+    assert_int_equal(dpz_solve(&L, b, x, &o, &info, &err), DPZ_EBREAKDOWN);
+    dpz_solve_info_free(&info);
+    o.kind = DPZ_SOLVER_GMRES;
+    x[0] = x[1] = 0;
+    assert_int_equal(dpz_solve(&L, b, x, &o, &info, &err), DPZ_OK);
+    assert_cclose_abs(x[0], 0.0, 1e-15, 1.0);
+    assert_cclose(x[1], 1.0, 1e-15);
+    dpz_solve_info_free(&info);
+}
+
+/* A stagnation window of 3 iterations stops a solve whose residual cannot fall: the
+ * operator returns 0 * x for the second component, so that equation is never satisfied
+ * (singular system) and GMRES's residual plateaus. */
+static dpz_status singular_apply(void *ctx, const double complex *x, double complex *y,
+                                 dpz_err *err)
+{
+    (void)ctx;
+    (void)err;
+    y[0] = 2.385 * x[0];
+    y[1] = 0.0;
+    y[2] = 1.5 * x[2];
+    return DPZ_OK;
+}
+
+static void test_iter_stagnation_detected(void **state)
+{
+    (void)state;
+    dpz_linop L = {3, NULL, singular_apply, NULL};
+    const double complex b[3] = {1.0, 1.0, 1.0};
+    double complex x[3] = {0, 0, 0};
+    dpz_solve_opts o = dpz_solve_opts_default();
+    o.kind = DPZ_SOLVER_GMRES;
+    o.restart = 1;
+    o.stagnation_window = 3;
+    dpz_err err;
+    dpz_solve_info info;
+    dpz_status st = dpz_solve(&L, b, x, &o, &info, &err);
+    assert_int_equal(st, DPZ_ESTAGNATION);
+    assert_non_null(strstr(err.msg, "stagnated"));
+    assert_true(info.residual > 0.5);
+    dpz_solve_info_free(&info);
+}
+
+static void test_iter_names_and_bad_options(void **state)
+{
+    (void)state;
+    dpz_solver_kind k;
+    dpz_err err;
+    assert_int_equal(dpz_solver_parse("cocg", &k, &err), DPZ_OK);
+    assert_int_equal(k, DPZ_SOLVER_COCG);
+    assert_string_equal(dpz_solver_name(DPZ_SOLVER_GMRES), "gmres");
+    assert_int_equal(dpz_solver_parse("qmr", &k, &err), DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "bicgstab"));
+    dpz_solve_opts o = dpz_solve_opts_default();
+    assert_close(o.tol, 1e-8, 0.0);
+    assert_int_equal(o.max_iter, 10000);
+    assert_int_equal(o.restart, 30);
+    assert_true(o.jacobi != 0);
+    dpz_iter *it = NULL;
+    o.tol = 0.0;
+    assert_int_equal(dpz_iter_create(&it, 10, &o, &err), DPZ_EINVAL);
+    o = dpz_solve_opts_default();
+    o.max_iter = 0;
+    assert_int_equal(dpz_iter_create(&it, 10, &o, &err), DPZ_EINVAL);
+    assert_int_equal(dpz_iter_create(&it, 0, NULL, &err), DPZ_EINVAL);
+    assert_null(it);
+    /* A linop of the wrong order is refused at set. */
+    assert_int_equal(dpz_iter_create(&it, 4, NULL, &err), DPZ_OK);
+    dpz_linop L = {2, NULL, swap_apply, NULL};
+    double complex b[4] = {1, 2, 3, 4};
+    assert_int_equal(dpz_iter_set(it, &L, b, NULL, &err), DPZ_EINVAL);
+    assert_int_equal(dpz_iter_step(it, &err), DPZ_EINVAL);
+    dpz_iter_destroy(it);
+}
+
+static void test_iter_allocation_failure(void **state)
+{
+    (void)state;
+    const dpz_solver_kind kinds[] = {DPZ_SOLVER_BICGSTAB, DPZ_SOLVER_COCG,
+                                     DPZ_SOLVER_GMRES};
+    for (int q = 0; q < 3; q++) {
+        dpz_solve_opts o = dpz_solve_opts_default();
+        o.kind = kinds[q];
+        int failures = 0;
+        for (long n = 0;; n++) {
+            dpz_iter *it = NULL;
+            dpz_err err;
+            dpz_alloc_fail_after(n);
+            dpz_status st = dpz_iter_create(&it, 12, &o, &err);
+            dpz_alloc_fail_after(-1);
+            if (st == DPZ_OK) {
+                dpz_iter_destroy(it);
+                break;
+            }
+            assert_int_equal(st, DPZ_ENOMEM);
+            assert_null(it);
+            failures++;
+        }
+        assert_true(failures >= 5);
+    }
+}
+
+int main(void)
+{
+    const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_iter_dielectric_sphere),
+        cmocka_unit_test(test_iter_high_index_sphere),
+        cmocka_unit_test(test_iter_metal_sphere),
+        cmocka_unit_test(test_iter_warm_start),
+        cmocka_unit_test(test_iter_max_iter_reports_noconv),
+        cmocka_unit_test(test_iter_zero_rhs),
+        cmocka_unit_test(test_iter_breakdown_detected),
+        cmocka_unit_test(test_iter_stagnation_detected),
+        cmocka_unit_test(test_iter_names_and_bad_options),
+        cmocka_unit_test(test_iter_allocation_failure),
+    };
+    return cmocka_run_group_tests(tests, NULL, NULL);
+}

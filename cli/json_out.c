@@ -1,0 +1,132 @@
+/* json_out.c: output helpers of the program: JSON values through cJSON (complex numbers
+ * as [re, im], 3x3 tensors as 3 rows of 3 pairs, SI units, doubles printed by cJSON with
+ * up to 17 significant digits so that they read back exactly), aligned terminal tables
+ * and atomic file writing (temporary name in the same directory, then rename). */
+#include "cli_int.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+cJSON *cli_json_complex(double complex z)
+{
+    cJSON *p = cJSON_CreateArray();
+    if (!p)
+        return NULL;
+    cJSON_AddItemToArray(p, cJSON_CreateNumber(creal(z)));
+    cJSON_AddItemToArray(p, cJSON_CreateNumber(cimag(z)));
+    return p;
+}
+
+cJSON *cli_json_tensor3(double complex t[3][3])
+{
+    cJSON *rows = cJSON_CreateArray();
+    for (int r = 0; rows && r < 3; r++) {
+        cJSON *row = cJSON_CreateArray();
+        for (int c = 0; row && c < 3; c++)
+            cJSON_AddItemToArray(row, cli_json_complex(t[r][c]));
+        cJSON_AddItemToArray(rows, row);
+    }
+    return rows;
+}
+
+cJSON *cli_json_block(double complex A[6][6], int r0, int c0)
+{
+    double complex t[3][3];
+    for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++)
+            t[r][c] = A[r0 + r][c0 + c];
+    return cli_json_tensor3(t);
+}
+
+cJSON *cli_json_vec3(const double v[3])
+{
+    return cJSON_CreateDoubleArray(v, 3);
+}
+
+cJSON *cli_json_doubles(const double *v, size_t n)
+{
+    cJSON *arr = cJSON_CreateArray();
+    for (size_t i = 0; arr && i < n; i++)
+        cJSON_AddItemToArray(arr, cJSON_CreateNumber(v[i]));
+    return arr;
+}
+
+cJSON *cli_json_setup(const dpz_setup *s)
+{
+    cJSON *o = cJSON_CreateObject();
+    if (!o)
+        return NULL;
+    cJSON_AddStringToObject(o, "kind", dpz_solver_name(s->solve.kind));
+    cJSON_AddNumberToObject(o, "tol", s->solve.tol);
+    cJSON_AddNumberToObject(o, "max_iter", (double)s->solve.max_iter);
+    cJSON_AddStringToObject(o, "dipole_model", dpz_dipole_name(s->model));
+    cJSON_AddNumberToObject(o, "threads", s->op.threads);
+    return o;
+}
+
+void cli_json_grid_facts(cJSON *o, const dpz_grid *g)
+{
+    cJSON_AddNumberToObject(o, "voxels", (double)g->n_occ);
+    cJSON_AddNumberToObject(o, "spacing_m", g->d);
+    cJSON_AddNumberToObject(o, "volume_m3", dpz_grid_volume(g));
+    cJSON_AddNumberToObject(o, "a_eq_m", dpz_grid_aeq(g));
+}
+
+int cli_json_emit(cJSON *o)
+{
+    if (!o)
+        return cli_fail("out of memory while building the JSON output"), CLI_FAILED;
+    char *text = cJSON_PrintUnformatted(o);
+    cJSON_Delete(o);
+    if (!text)
+        return cli_fail("out of memory while printing the JSON output"), CLI_FAILED;
+    int bad = fputs(text, stdout) < 0 || fputc('\n', stdout) == EOF;
+    cJSON_free(text);
+    if (bad)
+        return cli_fail("cannot write to standard output"), CLI_FAILED;
+    return CLI_OK;
+}
+
+void cli_print_tensor3(FILE *f, const char *title, double complex t[3][3], double scale,
+                       const char *unit)
+{
+    fprintf(f, "%s [%s]\n", title, unit);
+    for (int r = 0; r < 3; r++) {
+        fputs("    ", f);
+        for (int c = 0; c < 3; c++) {
+            double complex z = t[r][c] / scale;
+            fprintf(f, "  % .5e %c %.5ei", creal(z), cimag(z) < 0 ? '-' : '+',
+                    fabs(cimag(z)));
+        }
+        fputc('\n', f);
+    }
+}
+
+int cli_write_atomic(const char *path, cli_writer write, void *ctx)
+{
+    size_t len = strlen(path);
+    char *tmp = malloc(len + 16);
+    if (!tmp)
+        return cli_fail("out of memory");
+    /* Same directory as the target, so that rename() is atomic. */
+    snprintf(tmp, len + 16, "%s.tmp%06ld", path, (long)getpid() % 1000000);
+    dpz_err e;
+    dpz_err_clear(&e);
+    dpz_status s = write(tmp, ctx, &e);
+    if (s != DPZ_OK) {
+        remove(tmp);
+        free(tmp);
+        return cli_fail_err(NULL, &e);
+    }
+    if (rename(tmp, path) != 0) {
+        int en = errno;
+        remove(tmp);
+        free(tmp);
+        return cli_fail("cannot write %s: %s", path, strerror(en));
+    }
+    free(tmp);
+    return CLI_OK;
+}

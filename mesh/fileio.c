@@ -1,0 +1,66 @@
+/* fileio.c: helpers shared by the file readers of mesh/: whole-file reads and names for
+ * messages. */
+#include "mesh_int.h"
+
+#include <errno.h>
+#include <stdio.h>
+#include <string.h>
+
+dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
+                                size_t *len, dpz_err *err)
+{
+    *buf = NULL;
+    *len = 0;
+    if (!path)
+        return dpz_err_set(err, DPZ_EINVAL, "%s: NULL path", who);
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return dpz_err_set(err, DPZ_EIO, "%s: %s: cannot open: %s", who, path,
+                           strerror(errno));
+    size_t cap = 1 << 16, n = 0;
+    char *data = dpz__malloc(cap + 1);
+    if (!data) {
+        fclose(f);
+        return dpz_err_set(err, DPZ_ENOMEM, "%s: %s: out of memory", who, path);
+    }
+    for (;;) {
+        if (n == cap) {
+            if (cap > ((size_t)-1 - 1) / 2) {
+                dpz__free(data);
+                fclose(f);
+                return dpz_err_set(err, DPZ_ELIMIT, "%s: %s: file too large", who, path);
+            }
+            char *bigger = dpz__realloc(data, 2 * cap + 1);
+            if (!bigger) {
+                dpz__free(data);
+                fclose(f);
+                return dpz_err_set(err, DPZ_ENOMEM,
+                                   "%s: %s: out of memory after %zu bytes", who, path, n);
+            }
+            data = bigger;
+            cap *= 2;
+        }
+        size_t got = fread(data + n, 1, cap - n, f);
+        n += got;
+        if (got == 0)
+            break;
+    }
+    int bad = ferror(f);
+    fclose(f);
+    if (bad) {
+        dpz__free(data);
+        return dpz_err_set(err, DPZ_EIO, "%s: %s: read error", who, path);
+    }
+    data[n] = '\0';
+    *buf = data;
+    *len = n;
+    return DPZ_OK;
+}
+
+const char *dpz__basename(const char *path)
+{
+    if (!path)
+        return "(buffer)";
+    const char *slash = strrchr(path, '/');
+    return slash ? slash + 1 : path;
+}

@@ -121,6 +121,10 @@ dpz_status dpz_sweep_read_file(const char *path, char **buf, size_t *len, dpz_er
  * fsync of DIR, so that DIR/NAME is always either the old or the new content. */
 dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void *data,
                                   size_t len, dpz_err *err);
+/* The same for content given in `n_parts` pieces, written one after another. */
+dpz_status dpz_sweep_write_atomic_parts(const char *dir, const char *name,
+                                        const void *const *parts, const size_t *lens,
+                                        size_t n_parts, dpz_err *err);
 
 /* ---- summary.json -------------------------------------------------------------------
  */

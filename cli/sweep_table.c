@@ -468,8 +468,9 @@ static dpz_status fsync_dir(const char *dir, dpz_err *err)
     return DPZ_OK;
 }
 
-dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void *data,
-                                  size_t len, dpz_err *err)
+dpz_status dpz_sweep_write_atomic_parts(const char *dir, const char *name,
+                                        const void *const *parts, const size_t *lens,
+                                        size_t n_parts, dpz_err *err)
 {
     char tmp[4096], dst[4096];
     int n1 = snprintf(dst, sizeof dst, "%s/%s", dir, name);
@@ -480,20 +481,23 @@ dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void 
     if (fd < 0)
         return dpz_err_set(err, DPZ_EIO, "%s: cannot create a file: %s", dir,
                            strerror(errno));
-    const char *p = data;
-    size_t left = len;
-    while (left > 0) {
-        ssize_t w = write(fd, p, left);
-        if (w < 0) {
-            if (errno == EINTR)
-                continue;
-            int e = errno;
-            close(fd);
-            unlink(tmp);
-            return dpz_err_set(err, DPZ_EIO, "%s: write failed: %s", dst, strerror(e));
+    for (size_t k = 0; k < n_parts; k++) {
+        const char *p = parts[k];
+        size_t left = lens[k];
+        while (left > 0) {
+            ssize_t w = write(fd, p, left);
+            if (w < 0) {
+                if (errno == EINTR)
+                    continue;
+                int e = errno;
+                close(fd);
+                unlink(tmp);
+                return dpz_err_set(err, DPZ_EIO, "%s: write failed: %s", dst,
+                                   strerror(e));
+            }
+            p += w;
+            left -= (size_t)w;
         }
-        p += w;
-        left -= (size_t)w;
     }
     /* mkstemp creates mode 0600; the tables are ordinary output files. */
     if (fchmod(fd, 0644) != 0 || fsync(fd) != 0) {
@@ -508,6 +512,13 @@ dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void 
         return dpz_err_set(err, DPZ_EIO, "%s: cannot write: %s", dst, strerror(e));
     }
     return fsync_dir(dir, err);
+}
+
+dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void *data,
+                                  size_t len, dpz_err *err)
+{
+    const void *parts[1] = {data};
+    return dpz_sweep_write_atomic_parts(dir, name, parts, &len, 1, err);
 }
 
 /* ---- comparing inputs ---------------------------------------------------------------

@@ -118,10 +118,13 @@ int cli_exit_code(dpz_status s)
 int cli_fail_err(const char *what, const dpz_err *err)
 {
     const char *msg = err->msg[0] ? err->msg : dpz_status_message(err->code);
+    const char *hint = err->code == DPZ_ELIMIT && strstr(msg, "limit")
+                           ? " (the limit is set with --max-voxels N)"
+                           : "";
     if (what)
-        cli_fail("%s: %s", what, msg);
+        cli_fail("%s: %s%s", what, msg, hint);
     else
-        cli_fail("%s", msg);
+        cli_fail("%s%s", msg, hint);
     return cli_exit_code(err->code) == CLI_OK ? CLI_FAILED : cli_exit_code(err->code);
 }
 

@@ -29,8 +29,7 @@ extern "C" {
 
 enum { CLI_OK = 0, CLI_FAILED = 1, CLI_USAGE = 2 };
 
-/* ---- options and subcommands ---------------------------------------------------------
- */
+/* ---- options and subcommands */
 typedef struct cli_opt {
     const char *name; /* "--radius" */
     const char *meta; /* value placeholder ("LEN"), NULL for a flag without value */
@@ -92,8 +91,7 @@ extern const cli_group cli_group_solver;
 extern const cli_group cli_group_geometry; /* --spacing, --stl-unit, --max-voxels, ... */
 extern const cli_group cli_group_output;   /* --json, --quiet */
 
-/* ---- messages and exit codes ---------------------------------------------------------
- */
+/* ---- messages and exit codes */
 /* Prints "dipolize: <message>" on stderr and returns CLI_USAGE. */
 int cli_fail(const char *fmt, ...)
 #if defined(__GNUC__)
@@ -121,8 +119,7 @@ int cli_opt_length_pos(const cli_args *a, const char *name, double *out, int req
 int cli_opt_real(const cli_args *a, const char *name, double *out, int *given);
 int cli_opt_count(const cli_args *a, const char *name, size_t *out, int *given);
 
-/* ---- geometry
- * -------------------------------------------------------------------------- */
+/* ---- geometry */
 typedef enum {
     CLI_SRC_VTK = 0,
     CLI_SRC_NPY,
@@ -139,8 +136,7 @@ int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
                       cli_src_format *fmt, double *mesh_volume);
 const char *cli_src_format_name(cli_src_format f);
 
-/* ---- materials
- * --------------------------------------------------------------------------- */
+/* ---- materials */
 typedef struct cli_materials {
     dpz_material *mat[256]; /* per label (owned; NULL for label 0 and unused labels) */
     int shared[256];        /* nonzero: mat[l] is the --eps material owned by label 1.. */
@@ -168,14 +164,18 @@ cJSON *cli_materials_json(const cli_materials *m, const dpz_grid *grid);
  * `setup` (grid and materials are set by the caller). */
 int cli_setup_options(const cli_args *a, dpz_setup *setup);
 
-/* ---- JSON and output
- * --------------------------------------------------------------------- */
+/* ---- JSON and output */
 cJSON *cli_json_complex(double complex z);
-cJSON *cli_json_tensor3(double complex t[3][3]);
+/* A 3x3 tensor from 9 entries, row-major. Call it through cli_json_tensor3(t) with a
+ * `double complex t[3][3]` (const or not: the macro takes &t[0][0], which converts to
+ * a pointer to const without the C17 array-qualifier pitfall). */
+cJSON *cli_json_tensor3_flat(const double complex *t);
+#define cli_json_tensor3(t) cli_json_tensor3_flat(&(t)[0][0])
 cJSON *cli_json_vec3(const double v[3]);
 cJSON *cli_json_doubles(const double *v, size_t n);
-/* The 3x3 block (r0, c0) of a 6x6 matrix. */
-cJSON *cli_json_block(double complex A[6][6], int r0, int c0);
+/* The 3x3 block (r0, c0) of a 6x6 matrix A[6][6] (row-major, 36 entries). */
+cJSON *cli_json_block_flat(const double complex *A, int r0, int c0);
+#define cli_json_block(A, r0, c0) cli_json_block_flat(&(A)[0][0], (r0), (c0))
 /* Solver options as an object: kind, tol, max_iter, dipole_model, threads. */
 cJSON *cli_json_setup(const dpz_setup *s);
 /* Grid facts shared by every command: voxels, spacing_m, volume_m3, a_eq_m. */
@@ -184,9 +184,12 @@ void cli_json_grid_facts(cJSON *o, const dpz_grid *g);
  * printing itself fails (out of memory, closed stdout). */
 int cli_json_emit(cJSON *o);
 
-/* Prints a 3x3 complex tensor as an aligned block with a title and unit. */
-void cli_print_tensor3(FILE *f, const char *title, double complex t[3][3], double scale,
-                       const char *unit);
+/* Prints a 3x3 complex tensor t[3][3] divided by `scale` as an aligned block with a
+ * title and unit; parts smaller than `zero_below` (in printed units) show as 0. */
+void cli_print_tensor3_flat(FILE *f, const char *title, const double complex *t,
+                            double scale, double zero_below, const char *unit);
+#define cli_print_tensor3(f, title, t, scale, zero_below, unit)                          \
+    cli_print_tensor3_flat((f), (title), &(t)[0][0], (scale), (zero_below), (unit))
 
 /* Writes a file atomically: `write(tmp_path, ctx, err)` writes a temporary file in the
  * same directory as `path`, which is then renamed to `path`; on failure the temporary
@@ -197,8 +200,7 @@ int cli_write_atomic(const char *path, cli_writer write, void *ctx);
 /* Shape from the KIND argument and the shape options of `dipolize shape`. */
 int cli_shape_from_args(const cli_args *a, const char *kind_name, dpz_shape *s);
 
-/* ---- subcommands (cmd_*.c)
- * ------------------------------------------------------------- */
+/* ---- subcommands (cmd_*.c) */
 extern const cli_cmd cli_cmd_shape;
 extern const cli_cmd cli_cmd_voxelize;
 extern const cli_cmd cli_cmd_info;

@@ -21,6 +21,19 @@
  * lossless helix; 1e-3 flags a real energy-balance problem. */
 #define ENERGY_OK 1e-3
 
+/* Entries below this fraction of the largest one print as 0 in tables (the JSON keeps
+ * every digit): far below any solver tolerance, so only rounding noise is hidden. */
+#define TABLE_ZERO 1e-12
+
+static double max_abs(const double complex *t, size_t n)
+{
+    double m = 0.0;
+    for (size_t i = 0; i < n; i++)
+        if (cabs(t[i]) > m)
+            m = cabs(t[i]);
+    return m;
+}
+
 static double now_s(void)
 {
     struct timespec t;
@@ -204,8 +217,9 @@ static int run_static(const cli_args *a)
         rc = cli_json_emit(o);
     } else {
         grid_table(j.grid, j.mat.host_index);
-        cli_print_tensor3(stdout, "static tensor chi", chi, 1.0, "m^3");
-        cli_print_tensor3(stdout, "chi / V", chi, V, "dimensionless");
+        double z = TABLE_ZERO * max_abs(&chi[0][0], 9);
+        cli_print_tensor3(stdout, "static tensor chi", chi, 1.0, z, "m^3");
+        cli_print_tensor3(stdout, "chi / V", chi, V, z / V, "dimensionless");
         solver_table(&j.setup, rhs, 3);
     }
     if (rc == CLI_OK && s == DPZ_ENOCONV) {
@@ -414,9 +428,10 @@ static int run_tensor(const cli_args *a)
                     blk[r][c] = t->A[r0 + r][c0 + c];
             char title[64];
             snprintf(title, sizeof title, "%s", names[b]);
-            cli_print_tensor3(stdout, title, blk, 1.0, "m^3");
+            double z = TABLE_ZERO * max_abs(&t->A[0][0], 36);
+            cli_print_tensor3(stdout, title, blk, 1.0, z, "m^3");
             snprintf(title, sizeof title, "%s / V", names[b]);
-            cli_print_tensor3(stdout, title, blk, V, "dimensionless");
+            cli_print_tensor3(stdout, title, blk, V, z / V, "dimensionless");
         }
         printf("\ndipole picture: %s\n", v1);
         printf("reciprocity:    %s\n", v2);
@@ -523,11 +538,12 @@ static int run_expand(const cli_args *a)
         for (size_t i = 0; i < ex->n_points; i++)
             printf(" %g", ex->points[i]);
         printf("\n");
-        cli_print_tensor3(stdout, "C0 (= V chi^-1)", ex->C0, 1.0, "dimensionless");
-        cli_print_tensor3(stdout, "C2 (see caution)", ex->C2, 1.0, "dimensionless");
-        cli_print_tensor3(stdout, "C3 (radiative: -(2i/9) I expected)", ex->C3, 1.0,
+        double z = TABLE_ZERO * max_abs(&ex->C0[0][0], 9);
+        cli_print_tensor3(stdout, "C0 (= V chi^-1)", ex->C0, 1.0, z, "dimensionless");
+        cli_print_tensor3(stdout, "C2 (see caution)", ex->C2, 1.0, z, "dimensionless");
+        cli_print_tensor3(stdout, "C3 (radiative: -(2i/9) I expected)", ex->C3, 1.0, z,
                           "dimensionless");
-        cli_print_tensor3(stdout, "C4", ex->C4, 1.0, "dimensionless");
+        cli_print_tensor3(stdout, "C4", ex->C4, 1.0, z, "dimensionless");
         printf("fit residual: %.2e (largest relative, over elements)\n",
                ex->fit_residual);
         printf("radiative check |C3 + 2i/9 I| / (2/9): %.2e%s\n", ex->radiative_check,

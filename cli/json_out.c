@@ -20,25 +20,25 @@ cJSON *cli_json_complex(double complex z)
     return p;
 }
 
-cJSON *cli_json_tensor3(double complex t[3][3])
+cJSON *cli_json_tensor3_flat(const double complex *t)
 {
     cJSON *rows = cJSON_CreateArray();
     for (int r = 0; rows && r < 3; r++) {
         cJSON *row = cJSON_CreateArray();
         for (int c = 0; row && c < 3; c++)
-            cJSON_AddItemToArray(row, cli_json_complex(t[r][c]));
+            cJSON_AddItemToArray(row, cli_json_complex(t[3 * r + c]));
         cJSON_AddItemToArray(rows, row);
     }
     return rows;
 }
 
-cJSON *cli_json_block(double complex A[6][6], int r0, int c0)
+cJSON *cli_json_block_flat(const double complex *A, int r0, int c0)
 {
-    double complex t[3][3];
+    double complex t[9];
     for (int r = 0; r < 3; r++)
         for (int c = 0; c < 3; c++)
-            t[r][c] = A[r0 + r][c0 + c];
-    return cli_json_tensor3(t);
+            t[3 * r + c] = A[6 * (r0 + r) + c0 + c];
+    return cli_json_tensor3_flat(t);
 }
 
 cJSON *cli_json_vec3(const double v[3])
@@ -90,16 +90,25 @@ int cli_json_emit(cJSON *o)
     return CLI_OK;
 }
 
-void cli_print_tensor3(FILE *f, const char *title, double complex t[3][3], double scale,
-                       const char *unit)
+void cli_print_tensor3_flat(FILE *f, const char *title, const double complex *t,
+                            double scale, double zero_below, const char *unit)
 {
     fprintf(f, "%s [%s]\n", title, unit);
     for (int r = 0; r < 3; r++) {
         fputs("    ", f);
         for (int c = 0; c < 3; c++) {
-            double complex z = t[r][c] / scale;
-            fprintf(f, "  % .5e %c %.5ei", creal(z), cimag(z) < 0 ? '-' : '+',
-                    fabs(cimag(z)));
+            double complex z = t[3 * r + c] / scale;
+            double re = fabs(creal(z)) < zero_below ? 0.0 : creal(z);
+            double im = fabs(cimag(z)) < zero_below ? 0.0 : cimag(z);
+            char cell[64];
+            if (re == 0.0 && im == 0.0)
+                snprintf(cell, sizeof cell, "0");
+            else if (im == 0.0)
+                snprintf(cell, sizeof cell, "%+.5e", re);
+            else
+                snprintf(cell, sizeof cell, "%+.5e %c %.5ei", re, im < 0 ? '-' : '+',
+                         fabs(im));
+            fprintf(f, "  %-27s", cell);
         }
         fputc('\n', f);
     }

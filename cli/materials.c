@@ -142,8 +142,8 @@ int cli_materials_eval(cli_materials *m, const dpz_grid *grid, double lambda0_m,
             continue;
         dpz_err e;
         if (dpz_material_eps(m->mat[l], lambda0_m, &eps_label[l], &e) != DPZ_OK) {
-            char what[64];
-            snprintf(what, sizeof what, "label %d", l);
+            char what[256];
+            snprintf(what, sizeof what, "label %d (%s)", l, m->describe[l]);
             return cli_fail_err(what, &e);
         }
         if (!isfinite(creal(eps_label[l])) || !isfinite(cimag(eps_label[l])))

@@ -25,10 +25,11 @@
 static const struct {
     const char *name;
     double metres;
+    int pow10; /* metres = 10^pow10 */
 } length_units[] = {
-    {"m", 1.0},   {"cm", 1e-2},        {"mm", 1e-3},
-    {"um", 1e-6}, {"\xc2\xb5m", 1e-6}, /* micro sign, UTF-8 */
-    {"nm", 1e-9}, {"pm", 1e-12},       {"A", 1e-10},
+    {"m", 1.0, 0},    {"cm", 1e-2, -2},        {"mm", 1e-3, -3},
+    {"um", 1e-6, -6}, {"\xc2\xb5m", 1e-6, -6}, /* micro sign, UTF-8 */
+    {"nm", 1e-9, -9}, {"pm", 1e-12, -12},      {"A", 1e-10, -10},
 };
 #define N_LENGTH_UNITS (sizeof length_units / sizeof length_units[0])
 #define LENGTH_UNIT_LIST "m, cm, mm, um, nm, pm or A"
@@ -140,14 +141,51 @@ dpz_status dpz_units_count(const char *opt, const char *text, size_t *out, dpz_e
     return DPZ_OK;
 }
 
-static int unit_lookup(const char *u, double *metres)
+static int unit_lookup_pow(const char *u, double *metres, int *pow10)
 {
     for (size_t i = 0; i < N_LENGTH_UNITS; i++)
         if (strcmp(u, length_units[i].name) == 0) {
             *metres = length_units[i].metres;
+            if (pow10)
+                *pow10 = length_units[i].pow10;
             return 0;
         }
     return -1;
+}
+
+static int unit_lookup(const char *u, double *metres)
+{
+    return unit_lookup_pow(u, metres, NULL);
+}
+
+/* The decimal number text[0..len) times 10^pow10, rounded once: the unit's power of ten
+ * is added to the decimal exponent before conversion, so that "20nm" gives exactly the
+ * double nearest to 2e-8 (a multiplication by 1e-9 would round twice). Returns -2 when
+ * the result is not finite. */
+static int scale_decimal(const char *text, size_t len, int pow10, double *out)
+{
+    size_t mlen = 0;
+    while (mlen < len && text[mlen] != 'e' && text[mlen] != 'E')
+        mlen++;
+    long ex = 0;
+    if (mlen < len) {
+        size_t i = mlen + 1;
+        int neg = 0;
+        if (i < len && (text[i] == '+' || text[i] == '-'))
+            neg = text[i++] == '-';
+        for (; i < len; i++)
+            if (ex < 100000) /* saturate: far beyond the range of double */
+                ex = ex * 10 + (text[i] - '0');
+        if (neg)
+            ex = -ex;
+    }
+    char buf[UNITS_TOKEN_MAX + 32];
+    snprintf(buf, sizeof buf, "%.*se%ld", (int)mlen, text, ex + pow10);
+    double v = strtod(buf, NULL);
+    if (!isfinite(v))
+        return -2;
+    *out = v;
+    return 0;
 }
 
 dpz_status dpz_units_length_unit(const char *opt, const char *text, double *metres,
@@ -185,10 +223,14 @@ static dpz_status number_with_unit(const char *opt, const char *text, const char
                            buf, what, example);
     double scale = 0.0;
     if (is_length == 1) {
-        if (unit_lookup(end, &scale) != 0)
+        int p10;
+        if (unit_lookup_pow(end, &scale, &p10) != 0)
             return dpz_err_set(err, DPZ_EINVAL,
                                "%s: \"%s\": unknown length unit \"%s\" (use %s, e.g. %s)",
                                nz(opt), buf, end, LENGTH_UNIT_LIST, example);
+        if (scale_decimal(buf, (size_t)(end - buf), p10, &v) != 0)
+            return dpz_err_set(err, DPZ_ERANGE, "%s: \"%s\" is too large", nz(opt), buf);
+        scale = 1.0;
     } else if (is_length == 0) {
         if (strcmp(end, "deg") == 0)
             scale = UNITS_PI / 180.0;

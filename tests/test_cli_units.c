@@ -43,6 +43,14 @@ static void test_units_length_good(void **state)
         assert_int_equal(dpz_units_length("--radius", cases[i].text, &v, &e), DPZ_OK);
         assert_close(v, cases[i].want, TOL_PARSE);
     }
+    /* One rounding only: the unit's power of ten joins the decimal exponent, so the
+     * result is the double nearest to the decimal value (C17 7.22.1.3 for strtod). */
+    assert_int_equal(dpz_units_length("--radius", "6nm", &v, &e), DPZ_OK);
+    assert_true(v == 6e-9);
+    assert_int_equal(dpz_units_length("--radius", "2.385e-2um", &v, &e), DPZ_OK);
+    assert_true(v == 2.385e-8);
+    assert_int_equal(dpz_units_length("--radius", "0.1um", &v, &e), DPZ_OK);
+    assert_true(v == 1e-7);
 }
 
 static void test_units_length_bad(void **state)
@@ -209,9 +217,7 @@ static void test_units_wavelength_range(void **state)
     assert_int_equal(n, 41);
     assert_close(w[0], 400e-9, TOL_PARSE);
     assert_close(w[17], 570e-9, TOL_PARSE);
-    double hi;
-    assert_int_equal(dpz_units_length("--wavelengths", "800nm", &hi, &e), DPZ_OK);
-    assert_true(w[40] == hi); /* HI exactly as typed, not LO + 40 STEP */
+    assert_true(w[40] == 800e-9); /* HI exactly as typed, not LO + 40 STEP */
     free(w);
     /* HI off the grid: the last point stays below it. 0.2..0.25um by 0.02um:
      * 0.2,0.22,0.24. */

@@ -1,0 +1,161 @@
+#!/usr/bin/env bash
+# e2e_cli_contract.sh: runs the dipolize program through its command-line contract
+# (shape -> info --json -> static -> tensor -> expand), checks the JSON fields and their
+# shapes, a few physical facts of a small dielectric sphere, the terminal tables, --help
+# and --version, and that bad input exits with 2 and leaves no file.
+# Usage: e2e_cli_contract.sh PATH_TO_DIPOLIZE
+set -u
+bin=${1:?usage: e2e_cli_contract.sh PATH_TO_DIPOLIZE}
+py=/usr/bin/python3
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+pass=0
+fail=0
+ok() { pass=$((pass + 1)); echo "ok    $1"; }
+bad() { fail=$((fail + 1)); echo "FAIL  $1"; [ -s "$tmp/err" ] && sed 's/^/      | /' "$tmp/err"; }
+run() { "$@" >"$tmp/out" 2>"$tmp/err"; echo $? >"$tmp/rc"; }
+rc() { cat "$tmp/rc"; }
+# pycheck NAME PYTHON-CODE : runs the code with d = the JSON object in $tmp/out
+pycheck() {
+    local name=$1 code=$2
+    if $py - "$tmp/out" >"$tmp/pyerr" 2>&1 <<PY
+import json, sys, math
+d = json.load(open(sys.argv[1]))
+def tensor(t):
+    assert len(t) == 3 and all(len(r) == 3 for r in t), "not 3x3"
+    for r in t:
+        for c in r:
+            assert len(c) == 2 and all(isinstance(v, (int, float)) for v in c), "not [re, im]"
+    return [[complex(c[0], c[1]) for c in r] for r in t]
+$code
+PY
+    then ok "$name"; else fail=$((fail + 1)); echo "FAIL  $name"; sed 's/^/      | /' "$tmp/pyerr"; fi
+}
+
+# ---- version and help ----------------------------------------------------------------------
+run "$bin" --version
+[ "$(rc)" = 0 ] && grep -q '^dipolize [0-9]' "$tmp/out" && ok "--version" || bad "--version"
+run "$bin" --help
+[ "$(rc)" = 0 ] && grep -q 'tensor' "$tmp/out" && ok "--help lists the commands" || bad "--help"
+for c in shape info static tensor expand; do
+    run "$bin" $c --help
+    if [ "$(rc)" = 0 ] && grep -q "^Usage: dipolize $c" "$tmp/out" && grep -q '^Example:' "$tmp/out"; then
+        ok "$c --help has usage and an example"
+    else
+        bad "$c --help"
+    fi
+done
+run "$bin" tensor --help
+grep -q -- '--wavelength LEN' "$tmp/out" && grep -q 'default 1e-8' "$tmp/out" && ok "tensor --help: units and defaults" || bad "tensor --help: units and defaults"
+
+# ---- shape -> info -------------------------------------------------------------------------
+# Sphere of radius 6 nm at 1 nm: 12 dipoles per diameter.
+run "$bin" shape sphere --radius 6nm --spacing 1nm -o "$tmp/s.vtk"
+[ "$(rc)" = 0 ] && [ -s "$tmp/s.vtk" ] && ok "shape sphere writes a VTK file" || bad "shape sphere"
+run "$bin" info "$tmp/s.vtk" --json
+[ "$(rc)" = 0 ] && pycheck "info --json fields" '
+for k in ("dims", "spacing_m", "voxels", "labels", "volume_m3", "a_eq_m"):
+    assert k in d, k
+assert abs(d["spacing_m"] - 1e-9) < 1e-24
+n = d["voxels"]
+assert d["labels"] == [{"label": 1, "voxels": n}], d["labels"]
+# volume = N d^3 and a_eq = (3V/(4 pi))^(1/3): definitions
+assert abs(d["volume_m3"] - n * 1e-27) <= 1e-12 * d["volume_m3"]
+assert abs(d["a_eq_m"] - (3 * d["volume_m3"] / (4 * math.pi)) ** (1 / 3)) <= 1e-12 * d["a_eq_m"]
+# voxel count within 10% of the sphere volume 4 pi r^3/3 (staircase error at 12 per diameter)
+assert abs(n - 4 * math.pi * 6**3 / 3) < 0.1 * 4 * math.pi * 6**3 / 3, n
+assert d["source"]["kind"] == "shape"
+' || bad "info --json"
+run "$bin" info "$tmp/s.vtk"
+[ "$(rc)" = 0 ] && grep -q 'a_eq' "$tmp/out" && ok "info table" || bad "info table"
+# Re-voxelize the recorded shape at 2 nm.
+run "$bin" info "$tmp/s.vtk" --spacing 2nm --json
+[ "$(rc)" = 0 ] && pycheck "info --spacing re-voxelizes the shape" '
+assert abs(d["spacing_m"] - 2e-9) < 1e-24 and d["voxels"] < 150, d["voxels"]
+' || bad "info --spacing"
+
+# ---- static --------------------------------------------------------------------------------
+run "$bin" static "$tmp/s.vtk" --eps 2.25 --json
+[ "$(rc)" = 0 ] && pycheck "static: fields, symmetry, Clausius-Mossotti sphere" '
+for k in ("chi", "volume_m3", "a_eq_m", "voxels", "spacing_m", "solver"):
+    assert k in d, k
+chi = tensor(d["chi"])
+V = d["volume_m3"]
+# Sphere: 3 V (eps-1)/(eps+2) (Bohren & Huffman 1983, eq. 5.15 with the SI volume form);
+# the DDA static error at ~12 dipoles per diameter is below 1% for eps 2.25 (measured
+# 0.29% at 20 per diameter); 3% leaves room for the staircase.
+ref = 3 * V * (2.25 - 1) / (2.25 + 2)
+for i in range(3):
+    assert abs(chi[i][i] - ref) < 0.03 * ref, (chi[i][i], ref)
+    for j in range(3):
+        if i != j:
+            assert abs(chi[i][j]) < 1e-6 * ref, chi[i][j]
+assert d["solver"]["converged"] is True
+' || bad "static"
+run "$bin" static "$tmp/s.vtk" --eps 2.25
+[ "$(rc)" = 0 ] && grep -q 'chi / V' "$tmp/out" && grep -q 'm^3' "$tmp/out" && ok "static table" || bad "static table"
+
+# ---- tensor --------------------------------------------------------------------------------
+run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm --json
+[ "$(rc)" = 0 ] && pycheck "tensor: fields, reciprocity, radiative correction" '
+for k in ("wavelength_m", "k_per_m", "host_index", "origin_m", "volume_m3", "a_eq_m",
+          "voxels", "spacing_m"):
+    assert k in d, k
+for b in ("ee", "em", "me", "mm"):
+    tensor(d["alpha"][b])
+for k in ("reciprocity", "energy_balance", "dipole_validity"):
+    assert isinstance(d["diagnostics"][k], (int, float)), k
+s = d["solver"]
+assert len(s["iterations"]) == 6 and len(s["residuals"]) == 6 and s["converged"] is True
+assert abs(d["k_per_m"] - 2 * math.pi / 200e-9) < 1e-12 * d["k_per_m"]
+ee = tensor(d["alpha"]["ee"]); em = tensor(d["alpha"]["em"]); me = tensor(d["alpha"]["me"])
+mx = max(abs(v) for r in ee for v in r)
+# Reciprocity a_ee = a_ee^T, a_em = -a_me^T (CONVENTIONS: reaction theorem form)
+for i in range(3):
+    for j in range(3):
+        assert abs(ee[i][j] - ee[j][i]) < 1e-5 * mx
+        assert abs(em[i][j] + me[j][i]) < 1e-5 * mx
+# Lossless particle with radiative reaction: Im(1/a) = -k^3/(6 pi) for the sphere
+# (Draine 1988; Bohren & Huffman lossless identity); the voxelized sphere keeps it to
+# its small anisotropy.
+k = d["k_per_m"]
+inv = 1 / ee[0][0]
+assert abs(inv.imag + k**3 / (6 * math.pi)) < 0.02 * k**3 / (6 * math.pi), inv
+assert d["origin_m"] == [0.0, 0.0, 0.0] or max(abs(v) for v in d["origin_m"]) < 1e-15
+' || bad "tensor"
+run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm
+[ "$(rc)" = 0 ] && grep -q 'dipole picture: ' "$tmp/out" && grep -q 'a_mm / V' "$tmp/out" && ok "tensor table with verdicts" || bad "tensor table"
+
+# ---- expand --------------------------------------------------------------------------------
+run "$bin" expand "$tmp/s.vtk" --eps 2.25 --size-parameters 0.05,0.1,0.15,0.2,0.25,0.3 --json
+[ "$(rc)" = 0 ] && pycheck "expand: fields, C3 = -(2i/9) I" '
+for k in ("C0", "C2", "C3", "C4", "fit_residual", "points", "radiative_check", "c2_caution"):
+    assert k in d, k
+for k in ("C0", "C2", "C3", "C4"):
+    tensor(d[k])
+assert d["points"] == [0.05, 0.1, 0.15, 0.2, 0.25, 0.3], d["points"]
+# C3 = -(2i/9) I for any shape (radiative reaction -i k^3/(6 pi) times V)
+assert d["radiative_check"] < 0.05, d["radiative_check"]
+C0 = tensor(d["C0"])
+# C0 = V chi^-1: sphere (eps+2)/(3(eps-1)) = 1.1333 (Bohren & Huffman 5.15), 3% as above
+assert abs(C0[0][0] - 4.25 / 3.75) < 0.03 * 4.25 / 3.75, C0[0][0]
+' || bad "expand"
+
+# ---- bad input: exit 2, one message, no file ----------------------------------------------
+run "$bin" shape sphere --radius 6 --spacing 1nm -o "$tmp/x.vtk"
+[ "$(rc)" = 2 ] && [ ! -e "$tmp/x.vtk" ] && grep -q '^dipolize: ' "$tmp/err" && ok "length without unit: exit 2, no file" || bad "length without unit"
+run "$bin" info "$tmp/none.vtk"
+[ "$(rc)" = 2 ] && [ -s "$tmp/err" ] && ok "missing file: exit 2" || bad "missing file"
+printf 'not a voxel file\n' >"$tmp/junk.vtk"
+run "$bin" info "$tmp/junk.vtk"
+[ "$(rc)" = 2 ] && ok "malformed file: exit 2" || bad "malformed file"
+run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm --bogus
+[ "$(rc)" = 2 ] && [ ! -s "$tmp/out" ] && ok "unknown option: exit 2, no output" || bad "unknown option"
+# Non-convergence: exit 1 and the JSON still says so.
+run "$bin" tensor "$tmp/s.vtk" --eps 12.25 --wavelength 200nm --max-iter 1 --json
+[ "$(rc)" = 1 ] && pycheck "no convergence: exit 1, converged false" '
+assert d["solver"]["converged"] is False
+' || bad "no convergence: exit $(rc)"
+
+echo "e2e_cli_contract: $pass passed, $fail failed"
+[ "$fail" = 0 ]

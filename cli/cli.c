@@ -28,6 +28,8 @@ static const struct {
     const char *summary;
     int (*run)(int argc, char **argv);
 } raw_commands[] = {
+    {"sweep", "6x6 tensors over a wavelength list into a directory of tables",
+     dpz_cli_sweep},
     {"merge", "combine the directories of sharded sweeps into one run", dpz_cli_merge},
 };
 #define N_RAW (sizeof raw_commands / sizeof raw_commands[0])

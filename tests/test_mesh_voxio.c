@@ -547,6 +547,403 @@ static void test_vtk_write_failure_leaves_nothing(void **state)
     dpz_grid_destroy(g);
 }
 
+/* ---- NumPy .npy
+ * ------------------------------------------------------------------------ */
+
+/* Writes a .npy buffer for the 5 x 4 x 3 test object, following NEP 1: magic, version,
+ * little-endian header length, dict padded with spaces to a multiple of 64 bytes, '\n'.
+ */
+static size_t make_npy(unsigned char *out, int version, const char *descr, int fortran,
+                       const uint8_t *labels, size_t nx, size_t ny, size_t nz)
+{
+    char dict[256];
+    int dl = snprintf(dict, sizeof dict,
+                      "{'descr': '%s', 'fortran_order': %s, 'shape': (%zu, "
+                      "%zu, %zu), }",
+                      descr, fortran ? "True" : "False", nx, ny, nz);
+    size_t pre = version == 1 ? 10 : 12;
+    size_t total = pre + (size_t)dl + 1;
+    size_t padded = (total + 63) / 64 * 64;
+    memcpy(out, "\x93NUMPY", 6);
+    out[6] = (unsigned char)version, out[7] = 0;
+    size_t hl = padded - pre;
+    out[8] = (unsigned char)hl, out[9] = (unsigned char)(hl >> 8);
+    if (version > 1)
+        out[10] = (unsigned char)(hl >> 16), out[11] = (unsigned char)(hl >> 24);
+    memcpy(out + pre, dict, (size_t)dl);
+    memset(out + pre + dl, ' ', padded - pre - (size_t)dl - 1);
+    out[padded - 1] = '\n';
+    size_t size = (size_t)(descr[2] - '0');
+    int big = descr[0] == '>';
+    size_t pos = padded;
+    for (size_t q = 0; q < nx * ny * nz; q++) {
+        size_t i, j, k;
+        if (fortran) {
+            i = q % nx, j = (q / nx) % ny, k = q / (nx * ny);
+        } else {
+            k = q % nz, j = (q / nz) % ny, i = q / (nz * ny);
+        }
+        uint64_t v = labels[(i * ny + j) * nz + k];
+        for (size_t b = 0; b < size; b++)
+            out[pos + (big ? size - 1 - b : b)] = (unsigned char)(v >> (8 * b));
+        pos += size;
+    }
+    return pos;
+}
+
+static void test_npy_every_dtype_order_and_version(void **state)
+{
+    (void)state;
+    dpz_grid *ref = make_object(0);
+    const char *descrs[] = {"|u1", "|i1", "<i2", ">i2", "<u2", ">u2", "<i4",
+                            ">i4", "<u4", ">u4", "<i8", ">i8", "<u8", ">u8"};
+    static unsigned char buf[4096];
+    const char *vtk = scratch_path("npy.vtk");
+    for (size_t t = 0; t < sizeof descrs / sizeof descrs[0]; t++)
+        for (int fortran = 0; fortran < 2; fortran++)
+            for (int version = 1; version <= 3; version++) {
+                uint8_t labels[60];
+                memcpy(labels, ref->label, 60);
+                if (descrs[t][1] == 'i' && descrs[t][2] == '1')
+                    for (int q = 0; q < 60; q++)
+                        labels[q] &= 0x7f; /* int8 holds 0..127 */
+                size_t len = make_npy(buf, version, descrs[t], fortran, labels, 5, 4, 3);
+                dpz_grid *g = NULL;
+                dpz_err err;
+                dpz_status st =
+                    dpz_npy_read(&g, (const char *)buf, len, "a.npy", D, 0, &err);
+                if (st != DPZ_OK)
+                    print_error("%s fortran=%d v%d: %s\n", descrs[t], fortran, version,
+                                err.msg);
+                assert_int_equal(st, DPZ_OK);
+                assert_int_equal(g->nx, 5);
+                assert_int_equal(g->ny, 4);
+                assert_int_equal(g->nz, 3);
+                assert_memory_equal(g->label, labels, 60);
+                assert_true(g->d == D);
+                /* NPY -> VTK -> grid keeps every voxel. */
+                assert_int_equal(dpz_vtk_write_file(g, vtk, &err), DPZ_OK);
+                dpz_grid *h = NULL;
+                assert_int_equal(dpz_vtk_read_file(&h, vtk, 0, &err), DPZ_OK);
+                assert_same_grid(g, h);
+                dpz_grid_destroy(h);
+                dpz_grid_destroy(g);
+            }
+    /* bool arrays. */
+    uint8_t bits[60];
+    for (int q = 0; q < 60; q++)
+        bits[q] = ref->label[q] != 0;
+    size_t len = make_npy(buf, 1, "|b1", 1, bits, 5, 4, 3);
+    dpz_grid *g = NULL;
+    assert_int_equal(dpz_npy_read(&g, (const char *)buf, len, NULL, D, 0, NULL), DPZ_OK);
+    assert_memory_equal(g->label, bits, 60);
+    assert_int_equal(g->n_occ, ref->n_occ);
+    dpz_grid_destroy(g);
+    remove(vtk);
+    dpz_grid_destroy(ref);
+}
+
+static void expect_npy_failure(const unsigned char *buf, size_t len, double spacing,
+                               size_t max_cells, dpz_status want, const char *needle)
+{
+    dpz_grid *g = (dpz_grid *)&g;
+    dpz_err err;
+    dpz_err_clear(&err);
+    dpz_status st =
+        dpz_npy_read(&g, (const char *)buf, len, "bad.npy", spacing, max_cells, &err);
+    if (st != want || !strstr(err.msg, needle))
+        print_error("status %s, message '%s', expected %s with '%s'\n",
+                    dpz_status_name(st), err.msg, dpz_status_name(want), needle);
+    assert_int_equal(st, want);
+    assert_null(g);
+    assert_non_null(strstr(err.msg, needle));
+    assert_non_null(strstr(err.msg, "npy reader: bad.npy: "));
+}
+
+/* Replaces the dict of a version-1 buffer with `dict` (padded to the same length). */
+static size_t with_dict(unsigned char *buf, const unsigned char *good, size_t len,
+                        const char *dict)
+{
+    memcpy(buf, good, len);
+    size_t hl = (size_t)good[8] | (size_t)good[9] << 8;
+    size_t dl = strlen(dict);
+    assert_true(dl < hl);
+    memset(buf + 10, ' ', hl - 1);
+    memcpy(buf + 10, dict, dl);
+    return len;
+}
+
+static void test_npy_rejects_malformed(void **state)
+{
+    (void)state;
+    uint8_t labels[60];
+    for (int q = 0; q < 60; q++)
+        labels[q] = (uint8_t)(q % 3);
+    static unsigned char good[2048], buf[2048];
+    size_t len = make_npy(good, 1, "<i2", 0, labels, 5, 4, 3);
+    dpz_grid *g = NULL;
+    assert_int_equal(dpz_npy_read(&g, (const char *)good, len, NULL, D, 0, NULL), DPZ_OK);
+    dpz_grid_destroy(g);
+
+    expect_npy_failure(good, len, 0.0, 0, DPZ_EINVAL, "spacing is required");
+    expect_npy_failure(good, len, NAN, 0, DPZ_EINVAL, "spacing is required");
+    expect_npy_failure(good, len, -D, 0, DPZ_EINVAL, "spacing is required");
+    expect_npy_failure(good, len, INFINITY, 0, DPZ_EINVAL, "spacing is required");
+    expect_npy_failure((const unsigned char *)"PK\3\4 not npy", 13, D, 0, DPZ_EFORMAT,
+                       "byte 0: not a .npy file");
+    expect_npy_failure(good, 7, D, 0, DPZ_EFORMAT, "byte 0");
+    memcpy(buf, good, len);
+    buf[6] = 4;
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT,
+                       "byte 6: unsupported format version 4.0");
+    memcpy(buf, good, len);
+    buf[9] = 0x7f; /* header length past the end */
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "byte 8: header");
+    size_t ds = 10 + ((size_t)good[8] | (size_t)good[9] << 8); /* data start */
+    char where[64];
+    memcpy(buf, good, len);
+    buf[ds - 1] = ' '; /* no newline */
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "newline");
+    with_dict(buf, good, len, "{'fortran_order': False, 'shape': (5, 4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "no 'descr'");
+    with_dict(buf, good, len,
+              "{'descr': '<f8', 'fortran_order': False, 'shape': (5, 4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "unsupported dtype '<f8'");
+    with_dict(buf, good, len,
+              "{'descr': '|i2', 'fortran_order': False, 'shape': (5, 4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "unsupported dtype '|i2'");
+    with_dict(buf, good, len,
+              "{'descr': '<U1', 'fortran_order': False, 'shape': (5, 4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "unsupported dtype");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': 0, 'shape': (5, 4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "fortran_order");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': (60,), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT,
+                       "must be 3-D (shape has 1 dimensions)");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': (5, 4, 3, 1), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "more than 3 dimensions");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': (5, -4, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "malformed 'shape'");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': [5, 4, 3], }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "'shape' tuple");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': (5, 0, 3), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "empty array");
+    with_dict(
+        buf, good, len,
+        "{'descr': '<i2', 'fortran_order': False, 'shape': (4294967296, 4294967296, "
+        "4294967296), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_ELIMIT, "overflows");
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': "
+              "(99999999999999999999999, 1, 1), }");
+    expect_npy_failure(buf, len, D, 0, DPZ_ELIMIT, "overflows");
+    expect_npy_failure(good, len, D, 59, DPZ_ELIMIT, "raise the voxel limit");
+    expect_npy_failure(good, len - 1, D, 0, DPZ_EFORMAT,
+                       "truncated data: 120 bytes expected");
+    memcpy(buf, good, len);
+    buf[len] = 0;
+    expect_npy_failure(buf, len + 1, D, 0, DPZ_EFORMAT, "trailing bytes");
+    /* Values outside 0..255: -1 and 256 as int16, 2 as bool. */
+    memcpy(buf, good, len);
+    buf[ds + 2 * 7] = 0xff, buf[ds + 2 * 7 + 1] = 0xff;
+    snprintf(where, sizeof where, "byte %zu: value -1 outside", ds + 14);
+    expect_npy_failure(buf, len, D, 0, DPZ_ERANGE, where);
+    memcpy(buf, good, len);
+    buf[ds + 2 * 9] = 0x00, buf[ds + 2 * 9 + 1] = 0x01;
+    snprintf(where, sizeof where, "byte %zu: value 256 outside", ds + 18);
+    expect_npy_failure(buf, len, D, 0, DPZ_ERANGE, where);
+    size_t blen = make_npy(buf, 1, "|b1", 0, labels, 5, 4, 3); /* labels hold 2s */
+    expect_npy_failure(buf, blen, D, 0, DPZ_ERANGE, "bool must be 0 or 1");
+    size_t llen = make_npy(buf, 1, ">i8", 0, labels, 5, 4, 3);
+    size_t lds = 10 + ((size_t)buf[8] | (size_t)buf[9] << 8);
+    memset(buf + lds + 8, 0xff, 8);
+    expect_npy_failure(buf, llen, D, 0, DPZ_ERANGE, "value -1 outside");
+    /* Every truncation of a valid file fails cleanly. */
+    for (size_t cut = 0; cut < len; cut += 5) {
+        g = (dpz_grid *)&g;
+        assert_int_not_equal(
+            dpz_npy_read(&g, (const char *)good, cut, "t.npy", D, 0, NULL), DPZ_OK);
+        assert_null(g);
+    }
+    /* Allocation failure at every step. */
+    int failures = 0;
+    for (long n = 0; n < 20; n++) {
+        g = NULL;
+        dpz_alloc_fail_after(n);
+        dpz_status st = dpz_npy_read(&g, (const char *)good, len, NULL, D, 0, NULL);
+        dpz_alloc_fail_after(-1);
+        if (st == DPZ_OK) {
+            dpz_grid_destroy(g);
+            break;
+        }
+        assert_int_equal(st, DPZ_ENOMEM);
+        failures++;
+    }
+    assert_true(failures >= 3);
+}
+
+/* ---- CSV
+ * ---------------------------------------------------------------------------------- */
+
+static void test_csv_round_trip_keeps_every_voxel(void **state)
+{
+    (void)state;
+    dpz_grid *ref = make_object(0);
+    /* Written in shuffled order, with a header, comments, blanks, spaces and CRLF. */
+    static char text[8192];
+    size_t pos = (size_t)sprintf(text, "i,j,k,label\r\n# a comment\n\n");
+    for (size_t m = 0; m < ref->n_occ; m++) {
+        size_t idx = ref->occ[(m * 7) % ref->n_occ]; /* 7 is coprime to the count */
+        size_t k = idx % 3, j = (idx / 3) % 4, i = idx / 12;
+        pos += (size_t)sprintf(
+            text + pos, m % 2 ? "%zu,%zu,%zu,%u\r\n" : " %zu , %zu,%zu ,%u  # voxel\n", i,
+            j, k, ref->label[idx]);
+    }
+    assert_int_equal(ref->n_occ % 7 != 0, 1);
+    dpz_grid *g = NULL;
+    dpz_err err;
+    dpz_status st = dpz_csvvox_read(&g, text, pos, "v.csv", D, 0, &err);
+    if (st != DPZ_OK)
+        print_error("%s\n", err.msg);
+    assert_int_equal(st, DPZ_OK);
+    /* The grid is sized to the largest index + 1: the object spans the whole 5 x 4 x 3.
+     */
+    assert_int_equal(g->nx, 5);
+    assert_int_equal(g->ny, 4);
+    assert_int_equal(g->nz, 3);
+    assert_memory_equal(g->label, ref->label, 60);
+    /* CSV -> VTK -> grid. */
+    const char *vtk = scratch_path("csv.vtk");
+    assert_int_equal(dpz_vtk_write_file(g, vtk, &err), DPZ_OK);
+    dpz_grid *h = NULL;
+    assert_int_equal(dpz_vtk_read_file(&h, vtk, 0, &err), DPZ_OK);
+    assert_same_grid(g, h);
+    dpz_grid_destroy(h);
+    dpz_grid_destroy(g);
+    remove(vtk);
+    dpz_grid_destroy(ref);
+}
+
+static void expect_csv_failure(const char *text, double spacing, size_t max_cells,
+                               dpz_status want, const char *needle)
+{
+    dpz_grid *g = (dpz_grid *)&g;
+    dpz_err err;
+    dpz_err_clear(&err);
+    dpz_status st =
+        dpz_csvvox_read(&g, text, strlen(text), "bad.csv", spacing, max_cells, &err);
+    if (st != want || !strstr(err.msg, needle))
+        print_error("status %s, message '%s', expected %s with '%s'\n",
+                    dpz_status_name(st), err.msg, dpz_status_name(want), needle);
+    assert_int_equal(st, want);
+    assert_null(g);
+    assert_non_null(strstr(err.msg, needle));
+}
+
+static void test_csv_rejects_malformed(void **state)
+{
+    (void)state;
+    expect_csv_failure("0,0,0,1\n", 0.0, 0, DPZ_EINVAL, "spacing is required");
+    expect_csv_failure("", D, 0, DPZ_EFORMAT, "no voxel lines");
+    expect_csv_failure("i,j,k,label\n# nothing\n", D, 0, DPZ_EFORMAT, "no voxel lines");
+    expect_csv_failure("0,0,0,1\n1,0,1\n", D, 0, DPZ_EFORMAT,
+                       "line 2: expected 4 fields");
+    expect_csv_failure("0,0,0,1,5\n", D, 0, DPZ_EFORMAT, "line 1: expected 4 fields");
+    expect_csv_failure("-1,0,0,1\n", D, 0, DPZ_EFORMAT, "line 1: field 1 ('-1')");
+    expect_csv_failure("0,0,0,1\n0,2.5,0,1\n", D, 0, DPZ_EFORMAT, "line 2: field 2");
+    expect_csv_failure("0,0,0,1\n0,0,,1\n", D, 0, DPZ_EFORMAT, "line 2: field 3");
+    expect_csv_failure("0,0,0,nan\n", D, 0, DPZ_EFORMAT, "field 4");
+    expect_csv_failure("0,0,0,256\n", D, 0, DPZ_ERANGE, "label 256");
+    expect_csv_failure("0,0,0,1\n3,1,2,4\n0,0,1,1\n3,1,2,5\n", D, 0, DPZ_EFORMAT,
+                       "line 4: voxel 3,1,2 listed twice (first on line 2)");
+    expect_csv_failure("0,0,99999999999999999999,1\n", D, 0, DPZ_EFORMAT, "field 3");
+    expect_csv_failure("0,0,300000000,1\n", D, 0, DPZ_ELIMIT, "raise the voxel limit");
+    expect_csv_failure("3000,3000,3000,1\n", D, 0, DPZ_ELIMIT, "raise the voxel limit");
+    expect_csv_failure("4,4,4,1\n", D, 124, DPZ_ELIMIT, "limit of 124");
+    expect_csv_failure("0,0,0,1\n0,0\0,1,1\n", D, 0, DPZ_EFORMAT, "line 2");
+    /* Allocation failure at every step. */
+    const char *ok = "0,0,0,1\n1,2,3,4\n";
+    int failures = 0;
+    for (long n = 0; n < 20; n++) {
+        dpz_grid *g = NULL;
+        dpz_alloc_fail_after(n);
+        dpz_status st = dpz_csvvox_read(&g, ok, strlen(ok), NULL, D, 0, NULL);
+        dpz_alloc_fail_after(-1);
+        if (st == DPZ_OK) {
+            assert_int_equal(g->n_occ, 2);
+            assert_int_equal(g->label[dpz_grid_index(g, 1, 2, 3)], 4);
+            dpz_grid_destroy(g);
+            break;
+        }
+        assert_int_equal(st, DPZ_ENOMEM);
+        assert_null(g);
+        failures++;
+    }
+    assert_true(failures >= 4);
+}
+
+static void write_file(const char *path, const void *data, size_t len)
+{
+    FILE *f = fopen(path, "wb");
+    assert_non_null(f);
+    assert_int_equal(fwrite(data, 1, len, f), len);
+    fclose(f);
+}
+
+static void test_voxfile_dispatch(void **state)
+{
+    (void)state;
+    dpz_grid *ref = make_object(0);
+    static unsigned char buf[4096];
+    size_t len = make_npy(buf, 1, "|u1", 0, ref->label, 5, 4, 3);
+    char npy[400];
+    snprintf(npy, sizeof npy, "%s", scratch_path("v.npy"));
+    write_file(npy, buf, len);
+    char csv[400];
+    snprintf(csv, sizeof csv, "%s", scratch_path("v.csv"));
+    write_file(csv, "i,j,k,label\n1,2,0,3\n", 20);
+    char vtk[400];
+    snprintf(vtk, sizeof vtk, "%s", scratch_path("v.vtk"));
+    assert_int_equal(dpz_vtk_write_file(ref, vtk, NULL), DPZ_OK);
+    char stl[400];
+    snprintf(stl, sizeof stl, "%s", scratch_path("v.stl"));
+    write_file(stl, "solid x\nendsolid x\n", 19);
+    char odd[400];
+    snprintf(odd, sizeof odd, "%s", scratch_path("v.dat"));
+    write_file(odd, "\x01\x02\x03", 3);
+    dpz_grid *g = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_voxfile_read(&g, npy, D, 0, &err), DPZ_OK);
+    assert_memory_equal(g->label, ref->label, 60);
+    dpz_grid_destroy(g);
+    assert_int_equal(dpz_voxfile_read(&g, npy, 0.0, 0, &err), DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "give the spacing"));
+    assert_int_equal(dpz_voxfile_read(&g, csv, 1.5e-9, 0, &err), DPZ_OK);
+    assert_int_equal(g->n_occ, 1);
+    assert_true(g->d == 1.5e-9);
+    dpz_grid_destroy(g);
+    assert_int_equal(dpz_voxfile_read(&g, csv, 0.0, 0, &err), DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "give the spacing"));
+    /* VTK carries its own spacing. */
+    assert_int_equal(dpz_voxfile_read(&g, vtk, 0.0, 0, &err), DPZ_OK);
+    assert_same_grid(ref, g);
+    dpz_grid_destroy(g);
+    assert_int_equal(dpz_voxfile_read(&g, stl, D, 0, &err), DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "STL mesh"));
+    assert_int_equal(dpz_voxfile_read(&g, odd, D, 0, &err), DPZ_EFORMAT);
+    assert_non_null(strstr(err.msg, "unknown format"));
+    assert_int_equal(dpz_voxfile_read(&g, scratch_path("none.csv"), D, 0, &err), DPZ_EIO);
+    assert_null(g);
+    remove(npy), remove(csv), remove(vtk), remove(stl), remove(odd);
+    dpz_grid_destroy(ref);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -560,6 +957,11 @@ int main(void)
         cmocka_unit_test(test_vtk_rejects_truncated_binary),
         cmocka_unit_test(test_vtk_allocation_failure),
         cmocka_unit_test(test_vtk_write_failure_leaves_nothing),
+        cmocka_unit_test(test_npy_every_dtype_order_and_version),
+        cmocka_unit_test(test_npy_rejects_malformed),
+        cmocka_unit_test(test_csv_round_trip_keeps_every_voxel),
+        cmocka_unit_test(test_csv_rejects_malformed),
+        cmocka_unit_test(test_voxfile_dispatch),
     };
     return cmocka_run_group_tests(tests, setup_scratch, teardown_scratch);
 }

@@ -41,7 +41,7 @@ int dpz__pic_fail(dpz_status st, const char *msg)
 char *dpz__pic_join(const char *dir, const char *name)
 {
     size_t a = strlen(dir), b = strlen(name);
-    char *p = malloc(a + b + 2);
+    char *p = dpz__malloc(a + b + 2);
     if (!p)
         return NULL;
     memcpy(p, dir, a);
@@ -61,7 +61,7 @@ dpz_status dpz__pic_read_file(const char *path, size_t max_bytes, char **out, si
     if (!f)
         return dpz_err_set(err, DPZ_EIO, "%s: cannot open: %s", path, strerror(errno));
     size_t cap = 65536, n = 0;
-    char *buf = malloc(cap);
+    char *buf = dpz__malloc(cap);
     if (!buf) {
         fclose(f);
         return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
@@ -74,7 +74,7 @@ dpz_status dpz__pic_read_file(const char *path, size_t max_bytes, char **out, si
                 return dpz_err_set(err, DPZ_ELIMIT, "%s: larger than %zu bytes", path,
                                    max_bytes);
             }
-            char *nb = realloc(buf, cap * 2);
+            char *nb = dpz__realloc(buf, cap * 2);
             if (!nb) {
                 free(buf);
                 fclose(f);
@@ -483,7 +483,7 @@ static dpz_status load_alpha(const char *dir, dpz_pic_sweep *sw, dpz_err *err)
         a.elem = (rc[0] + 3 * (b >> 1)) * 6 + rc[1] + 3 * (b & 1);
         if (nrec == cap) {
             size_t ncap = cap ? 2 * cap : 1024;
-            alpha_rec *nr = realloc(rec, ncap * sizeof *nr);
+            alpha_rec *nr = dpz__realloc(rec, ncap * sizeof *nr);
             if (!nr) {
                 st = dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
                 break;
@@ -513,9 +513,9 @@ static dpz_status load_alpha(const char *dir, dpz_pic_sweep *sw, dpz_err *err)
                 nl++;
         }
         if (st == DPZ_OK) {
-            sw->lambda_m = malloc(nl * sizeof *sw->lambda_m);
-            sw->A = malloc(nl * sizeof *sw->A);
-            sw->conv = malloc(nl * sizeof *sw->conv);
+            sw->lambda_m = dpz__malloc(nl * sizeof *sw->lambda_m);
+            sw->A = dpz__malloc(nl * sizeof *sw->A);
+            sw->conv = dpz__malloc(nl * sizeof *sw->conv);
             if (!sw->lambda_m || !sw->A || !sw->conv) {
                 st = dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
             } else {
@@ -612,7 +612,7 @@ static dpz_status load_rows(const char *dir, const char *name, const col_spec *s
             break;
         if (nrec == cap) {
             size_t ncap = cap ? 2 * cap : 256;
-            row_rec *nr = realloc(rec, ncap * sizeof *nr);
+            row_rec *nr = dpz__realloc(rec, ncap * sizeof *nr);
             if (!nr) {
                 st = dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
                 break;
@@ -631,11 +631,11 @@ static dpz_status load_rows(const char *dir, const char *name, const col_spec *s
                                  rec[i].line, rec[i - 1].line);
     }
     if (st == DPZ_OK && nrec > 0) {
-        double *lam = malloc(nrec * sizeof *lam);
-        int *conv = malloc(nrec * sizeof *conv);
+        double *lam = dpz__malloc(nrec * sizeof *lam);
+        int *conv = dpz__malloc(nrec * sizeof *conv);
         int ok = lam && conv;
         for (size_t i = 0; i < nspec && ok; i++) {
-            *spec[i].dst = malloc(nrec * sizeof(double));
+            *spec[i].dst = dpz__malloc(nrec * sizeof(double));
             ok = *spec[i].dst != NULL;
         }
         if (!ok) {
@@ -846,8 +846,8 @@ static void render_alpha(dpz_svg *s, const dpz_pic_sweep *sw, int r0, int c0,
                          const char *name)
 {
     size_t n = sw->n;
-    double *x = malloc(n * sizeof *x);
-    double *y = malloc(9 * 2 * n * sizeof *y);
+    double *x = dpz__malloc(n * sizeof *x);
+    double *y = dpz__malloc(9 * 2 * n * sizeof *y);
     if (!x || !y) {
         free(x);
         free(y);
@@ -1023,8 +1023,8 @@ static void render_alpha(dpz_svg *s, const dpz_pic_sweep *sw, int r0, int c0,
 static void render_cross(dpz_svg *s, const dpz_pic_sweep *sw)
 {
     size_t n = sw->ncs;
-    double *x = malloc(n * sizeof *x);
-    double *y = malloc(6 * n * sizeof *y);
+    double *x = dpz__malloc(n * sizeof *x);
+    double *y = dpz__malloc(6 * n * sizeof *y);
     if (!x || !y) {
         free(x);
         free(y);
@@ -1101,7 +1101,7 @@ static void render_cross(dpz_svg *s, const dpz_pic_sweep *sw)
 static void render_validity(dpz_svg *s, const dpz_pic_sweep *sw)
 {
     size_t n = sw->nd;
-    double *x = malloc(n * sizeof *x);
+    double *x = dpz__malloc(n * sizeof *x);
     if (!x) {
         s->oom = 1;
         return;

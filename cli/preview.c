@@ -88,14 +88,14 @@ static int pv_build(const dpz_grid *g, int axis, long slice, size_t block, pv_im
     size_t nh = (n[ah] + block - 1) / block, nv = (n[av] + block - 1) / block;
     im->nh = nh;
     im->nv = nv;
-    im->lab = calloc(nh * nv, 1);
+    im->lab = dpz__calloc(nh * nv, 1);
     im->lev = NULL;
     uint32_t *cnt = NULL;
     if (!im->lab)
         return -1;
     if (slice < 0) {
-        im->lev = calloc(nh * nv, 1);
-        cnt = calloc(nh * nv, sizeof *cnt);
+        im->lev = dpz__calloc(nh * nv, 1);
+        cnt = dpz__calloc(nh * nv, sizeof *cnt);
         if (!im->lev || !cnt) {
             free(cnt);
             return -1;
@@ -379,7 +379,7 @@ static int run_preview(const cli_args *a)
 
 int dpz_cli_preview(int argc, char **argv)
 {
-    cli_args *a = calloc(1, sizeof *a);
+    cli_args *a = dpz__calloc(1, sizeof *a);
     if (!a)
         return dpz__pic_fail(DPZ_ENOMEM, "out of memory");
     int help = 0;

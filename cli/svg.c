@@ -12,6 +12,8 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "dpz_common.h"
+
 /* Series colours: Okabe & Ito (2008), yellow left out (too pale on white). */
 static const char *const series_colours[] = {
     DPZ_SVG_BLUE,   DPZ_SVG_VERMILLION, DPZ_SVG_GREEN, DPZ_SVG_PURPLE,
@@ -61,7 +63,7 @@ static int reserve(dpz_svg *s, size_t extra)
     size_t cap = s->cap ? s->cap : 4096;
     while (cap < need)
         cap *= 2;
-    char *nb = realloc(s->buf, cap);
+    char *nb = dpz__realloc(s->buf, cap);
     if (!nb) {
         s->oom = 1;
         return -1;
@@ -577,7 +579,7 @@ void dpz_svg_legend_entry(dpz_svg *s, double x, double y, const dpz_svg_style *s
 int dpz_svg_write_file(const char *path, const char *data, size_t len)
 {
     size_t n = strlen(path);
-    char *tmp = malloc(n + 16);
+    char *tmp = dpz__malloc(n + 16);
     if (!tmp) {
         errno = ENOMEM;
         return -1;

@@ -270,6 +270,11 @@ double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_r
     return inv_cm;
 }
 
+double dpz_dipole_mkd(double complex eps_rel, double k, double d)
+{
+    return sqrt(cabs(eps_rel)) * k * d;
+}
+
 /* ---- kernel --------------------------------------------------------------------------
  */
 

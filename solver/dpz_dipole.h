@@ -32,6 +32,13 @@ dpz_status dpz_dipole_parse(const char *name, dpz_dipole_model *model, dpz_err *
 double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_rel,
                                     double k, double d);
 
+/* |m| k d with m = sqrt(eps_rel): the phase change across one voxel inside the material.
+ * Discrete-dipole results degrade when it exceeds about 1 (fewer than about ten dipoles per
+ * wavelength in the material; common practice, e.g. Draine & Flatau, JOSA A 11, 1491
+ * (1994)); callers warn above DPZ_DIPOLE_MKD_LIMIT. k in 1/m, d in m. */
+#define DPZ_DIPOLE_MKD_LIMIT 1.0
+double dpz_dipole_mkd(double complex eps_rel, double k, double d);
+
 /* Green tensor G(R) of CONVENTIONS.md 2 (E = G p~), R in metres, k in 1/m; the six
  * independent components in the order xx, xy, xz, yy, yz, zz, units m^-3. R must not be
  * zero. k = 0 gives the static tensor (3 RR - I)/(4 pi R^3). */

@@ -278,6 +278,12 @@ static void test_green_matches_finite_difference(void **state)
 static void test_dipole_names(void **state)
 {
     (void)state;
+    /* |m| k d for eps = 12.25 (|m| = 3.5), k d = 0.3: 1.05, above the limit of 1. */
+    assert_close(dpz_dipole_mkd(12.25, 0.3 / D, D), 1.05, TOL_FORMULA);
+    assert_true(dpz_dipole_mkd(12.25, 0.3 / D, D) > DPZ_DIPOLE_MKD_LIMIT);
+    /* |-10 + 1i| = sqrt(101), |m| = 101^(1/4). */
+    assert_close(dpz_dipole_mkd(-10.0 + 1.0 * I, 0.2 / D, D), pow(101.0, 0.25) * 0.2,
+                 TOL_FORMULA);
     dpz_dipole_model m;
     dpz_err err;
     assert_int_equal(dpz_dipole_parse("ldr", &m, &err), DPZ_OK);

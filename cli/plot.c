@@ -1284,6 +1284,12 @@ int dpz_cli_plot(int argc, char **argv)
                 "DIR [-o OUTDIR])\n");
         return 2;
     }
+    struct stat dst;
+    if (stat(dir, &dst) != 0 || !S_ISDIR(dst.st_mode)) {
+        fprintf(stderr, "dipolize: plot: %s is not a directory (give a sweep directory)\n",
+                dir);
+        return 2;
+    }
     dpz_err err;
     dpz_err_clear(&err);
     dpz_pic_sweep sw;

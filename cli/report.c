@@ -14,6 +14,8 @@
 
 #include "cJSON.h"
 #include "cli_int.h"
+#include "dpz_sha256.h"
+#include "dpz_shape.h"
 #include "dpz_voxio.h"
 
 /* JSON files of a run are small; refuse anything absurd. */
@@ -499,13 +501,18 @@ static void section_spectra(buf *h, const dpz_pic_sweep *sw)
         P(h, "<p>diagnostics.csv is not available: no dipole-validity plot.</p>");
 }
 
-/* Spacing recorded in the summary's options, m (0 when none). */
+/* Voxel edge of the run's grid, m (0 when not recorded): input.grid.spacing_m as written
+ * by the sweep, else a spacing among the options. */
 static double recorded_spacing(const cJSON *sum)
 {
+    double d;
+    const cJSON *in = cJSON_GetObjectItemCaseSensitive(sum, "input");
+    const cJSON *grid = in ? cJSON_GetObjectItemCaseSensitive(in, "grid") : NULL;
+    if (grid && json_num(grid, "spacing_m", &d) == 0 && d > 0)
+        return d;
     const cJSON *opt = cJSON_GetObjectItemCaseSensitive(sum, "options");
     if (!cJSON_IsObject(opt))
         return 0.0;
-    double d;
     if (json_num(opt, "spacing_m", &d) == 0 && d > 0)
         return d;
     const cJSON *s = cJSON_GetObjectItemCaseSensitive(opt, "spacing");
@@ -545,10 +552,25 @@ static void section_geometry(buf *h, const char *dir, const cJSON *sum)
              "directory).</p>");
         return;
     }
+    double run_d = recorded_spacing(sum);
     dpz_grid *g = NULL;
     dpz_err err;
     dpz_err_clear(&err);
-    dpz_status s = dpz_voxfile_read(&g, use, recorded_spacing(sum), 0, &err);
+    int revox = 0;
+    dpz_status s = dpz_voxfile_read(&g, use, run_d, 0, &err);
+    /* A VTK file written by `dipolize shape` records its shape; a run at another spacing
+     * re-voxelized it (the same way the program does), so the preview does too. */
+    if (s == DPZ_OK && g->source_kind == DPZ_SOURCE_SHAPE && run_d > 0 &&
+        fabs(g->d - run_d) > 1e-9 * run_d) {
+        dpz_shape shape;
+        dpz_grid *g2 = NULL;
+        s = dpz_shape_parse_record(g->source, &shape, &err);
+        if (s == DPZ_OK)
+            s = dpz_shape_voxelize(&g2, &shape, run_d, 0, 4, 0, &err);
+        dpz_grid_destroy(g);
+        g = g2;
+        revox = s == DPZ_OK;
+    }
     if (s == DPZ_OK) {
         char title[600];
         const char *slash = strrchr(path, '/');
@@ -557,8 +579,27 @@ static void section_geometry(buf *h, const char *dir, const cJSON *sum)
         s = dpz__pic_preview_render(h, g, title, 0, &err);
         P(h, "<figcaption>The voxel set read from <code>");
         E(h, use);
-        P(h, "</code>%s</figcaption></figure>\n",
-          s == DPZ_OK ? "." : " (picture incomplete).");
+        P(h, "</code>%s",
+          revox ? ", its recorded shape re-voxelized at the run's spacing" : "");
+        /* Has the file changed since the run? Compare with the recorded SHA-256. */
+        const char *sha = json_str(in, "sha256");
+        char hex[65];
+        if (sha && dpz_sha256_file_hex(use, hex, NULL) == DPZ_OK) {
+            if (strcmp(hex, sha) == 0)
+                P(h, "; the file is unchanged since the run (same SHA-256)");
+            else
+                P(h, "; <span class=\"warn\">the file has changed since the run</span> "
+                     "(its SHA-256 differs from the recorded one): this picture may not "
+                     "show the geometry that was solved");
+        }
+        const cJSON *grid = cJSON_GetObjectItemCaseSensitive(in, "grid");
+        double occ;
+        if (g && grid && json_num(grid, "voxels", &occ) == 0 && occ != (double)g->n_occ)
+            P(h,
+              "; <span class=\"warn\">the run had %.0f occupied voxels, this picture "
+              "%zu</span>",
+              occ, g->n_occ);
+        P(h, "%s</figcaption></figure>\n", s == DPZ_OK ? "." : " (picture incomplete).");
     }
     if (s != DPZ_OK) {
         P(h, "<p>The voxel preview is not available: ");

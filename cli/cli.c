@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "dpz_sweep.h"
+#include "pictures.h"
 #ifdef _OPENMP
 #include <omp.h>
 #endif
@@ -31,6 +32,11 @@ static const struct {
     {"sweep", "6x6 tensors over a wavelength list into a directory of tables",
      dpz_cli_sweep},
     {"merge", "combine the directories of sharded sweeps into one run", dpz_cli_merge},
+    {"plot", "SVG plots of a sweep directory: spectra, cross sections, validity",
+     dpz_cli_plot},
+    {"preview", "SVG picture of a voxel set: projections and mid-plane slices",
+     dpz_cli_preview},
+    {"report", "one self-contained HTML page about a sweep directory", dpz_cli_report},
 };
 #define N_RAW (sizeof raw_commands / sizeof raw_commands[0])
 

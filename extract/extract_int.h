@@ -16,6 +16,14 @@
 void dpz__extract_origin(const dpz_grid *grid, int has_origin, const double origin[3],
                          double out[3]);
 
+/* V = blockdiag(U, -i U), U = [e_{-1} e_0 e_{+1}] (columns), the unitary map between the
+ * order-1 wave basis and Cartesian components (defined in tblock.c). */
+void dpz__vmatrix(double complex V[6][6]);
+
+/* out = f * L X R with L = V (left_h = 0) or V^H (left_h = 1), R likewise. */
+void dpz__sandwich(double complex V[6][6], int left_h, double complex X[6][6],
+                   int right_h, double complex f, double complex out[6][6]);
+
 /* Spherical Bessel functions of the first kind j_0..j_nmax at real rho >= 0 (nmax + 1
  * values), accurate for every order: the power series for rho < 1 and Miller's downward
  * recursion normalized by sum (2n+1) j_n^2 = 1 (Abramowitz & Stegun 10.1.19 and 10.1.50)

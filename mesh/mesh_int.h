@@ -15,6 +15,12 @@
 dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
                                 size_t *len, dpz_err *err);
 
+/* Voxel count along one axis of a lattice placed symmetrically about a centre, for a
+ * half extent of q voxels (see dpz_shape_voxelize): odd count (a voxel centre on the
+ * centre) or even count (a face on it), whichever keeps voxel centres farther from the
+ * bounding planes; `extra` widens the range (0.5 with fill fractions). */
+double dpz__axis_count(double q, double extra);
+
 /* Base name of a path, for messages. */
 const char *dpz__basename(const char *path);
 

@@ -458,7 +458,7 @@ void dpz_shape_half_extent(const dpz_shape *s, double h[3])
  * the shape centre; pick the one whose nearest centre lies farther from the bounding
  * plane at q, ties to odd. `extra` widens the covered range by that many voxels (0.5 for
  * fractions: every voxel whose cube reaches the bounding box). */
-static double axis_count(double q, double extra)
+double dpz__axis_count(double q, double extra)
 {
     /* A relative slack of 1e-12 keeps centres that lie on the bounding plane up to
      * rounding (radius 10 nm at spacing 1 nm gives q = 9.999999999999998). */
@@ -498,7 +498,7 @@ dpz_status dpz_shape_voxelize(dpz_grid **out, const dpz_shape *s, double d_m,
     size_t n[3];
     for (int a = 0; a < 3; a++) {
         double q = h[a] / d_m;
-        double c = axis_count(q, fractions ? 0.5 : 0.0);
+        double c = dpz__axis_count(q, fractions ? 0.5 : 0.0);
         if (!(c <= (double)max_cells))
             return dpz_err_set(
                 err, DPZ_ELIMIT,

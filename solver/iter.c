@@ -568,7 +568,9 @@ static dpz_status step_gmres(dpz_iter *it, dpz_err *err)
     dpz_status st = apply(it, it->p, w, err);
     if (st != DPZ_OK)
         return it->status = st;
-    /* Modified Gram-Schmidt against the basis (Saad 2003, Algorithm 6.2). */
+    double w0 = nrm2(n, w);
+    /* Modified Gram-Schmidt against the basis (Saad, Iterative Methods for Sparse Linear
+     * Systems, 2nd ed., SIAM 2003, Algorithm 6.2). */
     for (size_t a = 0; a <= j; a++) {
         const double complex *va = it->V + a * n;
         double complex hij = dotc(n, va, w);
@@ -578,7 +580,8 @@ static dpz_status step_gmres(dpz_iter *it, dpz_err *err)
     }
     double hn = nrm2(n, w);
     h[j + 1] = hn;
-    int lucky = hn <= BREAKDOWN_TOL * cabs(h[j]);
+    /* "Happy breakdown": A M^-1 v_j lies in the Krylov space, the solution is exact. */
+    int lucky = hn <= BREAKDOWN_TOL * w0;
     if (!lucky)
         for (size_t i = 0; i < n; i++)
             w[i] /= hn;

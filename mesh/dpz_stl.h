@@ -79,6 +79,14 @@ dpz_status dpz_stl_voxelize(dpz_grid **out, const dpz_mesh *mesh, double d_m,
                             int fractions, int subsamples, size_t max_cells,
                             dpz_err *err);
 
+/* Reads the STL file at `path` (unit_m metres per mesh unit) and voxelizes it as
+ * dpz_stl_voxelize does (4 sub-samples per voxel edge when fractions != 0). When
+ * mesh_volume_m3 is not NULL it receives the mesh volume (m^3), to report beside the
+ * voxel volume dpz_grid_volume(*out). */
+dpz_status dpz_stl_voxelize_file(dpz_grid **out, const char *path, double unit_m,
+                                 double d_m, int fractions, size_t max_cells,
+                                 double *mesh_volume_m3, dpz_err *err);
+
 /* The mesh volume and the voxel volume of a grid made from it, m^3, side by side. */
 void dpz_stl_volumes(const dpz_mesh *mesh, const dpz_grid *grid, double *mesh_m3,
                      double *voxel_m3);

@@ -785,6 +785,25 @@ dpz_status dpz_stl_voxelize(dpz_grid **out, const dpz_mesh *mesh, double d_m,
     return DPZ_OK;
 }
 
+dpz_status dpz_stl_voxelize_file(dpz_grid **out, const char *path, double unit_m,
+                                 double d_m, int fractions, size_t max_cells,
+                                 double *mesh_volume_m3, dpz_err *err)
+{
+    if (out)
+        *out = NULL;
+    if (mesh_volume_m3)
+        *mesh_volume_m3 = -1.0;
+    dpz_mesh *m = NULL;
+    dpz_status st = dpz_stl_read_file(&m, path, unit_m, err);
+    if (st != DPZ_OK)
+        return st;
+    st = dpz_stl_voxelize(out, m, d_m, fractions, 4, max_cells, err);
+    if (st == DPZ_OK && mesh_volume_m3)
+        *mesh_volume_m3 = m->volume_m3;
+    dpz_mesh_destroy(m);
+    return st;
+}
+
 void dpz_stl_volumes(const dpz_mesh *mesh, const dpz_grid *grid, double *mesh_m3,
                      double *voxel_m3)
 {

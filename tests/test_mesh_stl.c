@@ -7,6 +7,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "dpz_test.h"
 
@@ -302,6 +303,28 @@ static void test_stl_cube_matches_builtin_box(void **state)
         dpz_grid_destroy(g);
         dpz_mesh_destroy(mesh);
     }
+    /* Through a file: same voxels, and the mesh volume beside them. */
+    size_t len;
+    unsigned char *bin = to_binary(&m, 1.0, &len);
+    char path[64];
+    snprintf(path, sizeof path, "/tmp/dpz_stl_%ld.stl", (long)getpid());
+    FILE *f = fopen(path, "wb");
+    assert_non_null(f);
+    assert_int_equal(fwrite(bin, 1, len, f), len);
+    fclose(f);
+    free(bin);
+    dpz_grid *g = NULL;
+    double vm = 0.0;
+    dpz_err err;
+    assert_int_equal(dpz_stl_voxelize_file(&g, path, nm, d, 0, 0, &vm, &err), DPZ_OK);
+    assert_memory_equal(g->label, ref->label, g->nx * g->ny * g->nz);
+    assert_close(vm, 21.4 * 15.8 * 10.6 * nm * nm * nm, 1e-6);
+    assert_string_equal(strstr(g->source, "path=") + 5, path);
+    dpz_grid_destroy(g);
+    remove(path);
+    assert_int_equal(dpz_stl_voxelize_file(&g, path, nm, d, 0, 0, &vm, &err), DPZ_EIO);
+    assert_null(g);
+    assert_true(vm < 0.0);
     dpz_grid_destroy(ref);
     free(m.t);
 }

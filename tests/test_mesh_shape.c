@@ -67,13 +67,17 @@ static void check_convergence(const dpz_shape *s, const char *what, double a_min
     for (int q = 0; q < n; q++) {
         double d = a_min / per_a[q];
         dpz_grid *g = voxelize(s, d, 0);
-        dpz_grid *gf = voxelize(s, d, 1);
         err_c[q] = fabs(dpz_grid_volume(g) - v_exact) / v_exact;
-        err_f[q] = fabs(dpz_grid_volume(gf) - v_exact) / v_exact;
+        /* Fractions cost 64 samples per voxel: the four coarser spacings suffice. */
+        err_f[q] = NAN;
+        if (q < 4) {
+            dpz_grid *gf = voxelize(s, d, 1);
+            err_f[q] = fabs(dpz_grid_volume(gf) - v_exact) / v_exact;
+            dpz_grid_destroy(gf);
+        }
         print_message("  %7.4f %10zu   %.3e        %.3e\n", 1.0 / per_a[q], g->n_occ,
                       err_c[q], err_f[q]);
         dpz_grid_destroy(g);
-        dpz_grid_destroy(gf);
     }
     /* Trend: the three finest errors all below the coarsest; the mean of the three finest
      * below a third of the mean of the three coarsest. */
@@ -84,9 +88,11 @@ static void check_convergence(const dpz_shape *s, const char *what, double a_min
     assert_true(fine < coarse / 3.0);
     /* Bound at the finest spacing (27 voxels per smallest semi-axis): 1%. */
     assert_true(err_c[n - 1] < 1e-2);
-    /* Fractions with 4^3 samples: the error is that of a 4x finer centre rule, and
-     * averaged over the boundary: 0.2% already at the finest spacing. */
-    assert_true(err_f[n - 1] < 2e-3);
+    /* Fractions with 4^3 samples: the error is that of a 4x finer centre rule, averaged
+     * over the boundary: below 0.2% at 12 voxels per semi-axis, and below the centre
+     * rule's error at the same spacing. */
+    assert_true(err_f[3] < 2e-3);
+    assert_true(err_f[3] < err_c[3]);
 }
 
 static void test_shape_sphere_volume_converges(void **state)
@@ -145,7 +151,7 @@ static void test_shape_volumes_match_analytic(void **state)
     shapes[8].outer = 20.3 * NM, shapes[8].inner = 6.2 * NM,
     shapes[8].thickness = 6.1 * NM;
     shapes[8].gap = 17.9 * NM;
-    const double d = 0.6 * NM;
+    const double d = 0.8 * NM;
     /* Thinnest extent of each shape above (diameter, height, thickness or wire). */
     const double thinnest[9] = {19.4 * NM, 17.9 * NM, 6.1 * NM,  6.1 * NM, 7.8 * NM,
                                 6.7 * NM,  22.6 * NM, 36.6 * NM, 6.1 * NM};

@@ -834,7 +834,7 @@ dpz_status dpz_shape_parse_record(const char *text, dpz_shape *out, dpz_err *err
     char *save = NULL;
     char *tok = strtok_r(copy + pl, " \t", &save);
     dpz_shape s;
-    dpz_shape_kind kind;
+    dpz_shape_kind kind = DPZ_SHAPE_SPHERE; /* set by the parser below */
     if (!tok)
         return dpz_err_set(err, DPZ_EFORMAT, "shape record: kind is missing");
     dpz_status st = dpz_shape_kind_from_name(tok, &kind, err);

@@ -73,9 +73,10 @@ static int make_layout(const dpz_grid *g, layout *L)
         L->p[a] = fft_friendly(2 * n[a] - 1);
         L->h[a] = L->p[a] / 2 + 1;
     }
+    /* At most 2^40 padded points (16 TiB per component) keeps every index product far
+     * from overflow; strides are passed to FFTW's 64-bit interface. */
     if (dpz_mul_overflow(L->p[0], L->p[1], &L->ptot) ||
-        dpz_mul_overflow(L->ptot, L->p[2], &L->ptot) || L->ptot > ((size_t)1 << 40) ||
-        L->p[1] * L->p[2] > 2147483647u)
+        dpz_mul_overflow(L->ptot, L->p[2], &L->ptot) || L->ptot > ((size_t)1 << 40))
         return -1;
     /* Components start on 128-byte boundaries, so each is aligned like the buffer. */
     L->cstride = (L->ptot + 7) / 8 * 8;
@@ -170,23 +171,24 @@ dpz_status dpz_fftop_set_diag(dpz_fftop *op, const double complex *inv_alpha,
 }
 
 /* One 1-D pass of length p[axis] over the three components of buf, restricted to the
- * lines whose index along the earlier axes is below `lim` (lim[a] = p[a] for no
- * restriction). Axes are 0 (x, slowest) .. 2 (z, fastest). The guru interface lets FFTW
- * loop over the components and lines (and thread that loop). */
+ * lines whose indices along the other axes are below `lim` (lim[a] = p[a] for no
+ * restriction). Axes are 0 (x, slowest) .. 2 (z, fastest). The 64-bit guru interface lets
+ * FFTW loop over the components and lines (and thread that loop) with strides beyond
+ * 2^31. */
 static fftw_plan plan_pass(dpz_fftop *op, int axis, const size_t lim[3], int dir,
                            unsigned flags)
 {
     const size_t *p = op->p;
-    const int stride[3] = {(int)(p[1] * p[2]), (int)p[2], 1};
-    fftw_iodim dim = {(int)p[axis], stride[axis], stride[axis]};
-    fftw_iodim how[3];
+    const ptrdiff_t stride[3] = {(ptrdiff_t)(p[1] * p[2]), (ptrdiff_t)p[2], 1};
+    fftw_iodim64 dim = {(ptrdiff_t)p[axis], stride[axis], stride[axis]};
+    fftw_iodim64 how[3];
     int nh = 0;
-    how[nh++] = (fftw_iodim){3, (int)op->cstride, (int)op->cstride};
+    how[nh++] = (fftw_iodim64){3, (ptrdiff_t)op->cstride, (ptrdiff_t)op->cstride};
     for (int a = 0; a < 3; a++)
         if (a != axis)
-            how[nh++] = (fftw_iodim){(int)lim[a], stride[a], stride[a]};
+            how[nh++] = (fftw_iodim64){(ptrdiff_t)lim[a], stride[a], stride[a]};
     fftw_complex *b = (fftw_complex *)op->buf;
-    return fftw_plan_guru_dft(1, &dim, nh, how, b, b, dir, flags);
+    return fftw_plan_guru64_dft(1, &dim, nh, how, b, b, dir, flags);
 }
 
 /* Writes the kernel for every lattice offset into component c of buf (offset o at index
@@ -236,10 +238,14 @@ static dpz_status transform_kernel(dpz_fftop *op, double k, dpz_dipole_model mod
 {
     const size_t *p = op->p, *h = op->h;
     size_t cs = op->cstride, ptot = op->ptot;
-    int dims[3] = {(int)p[0], (int)p[1], (int)p[2]};
+    const ptrdiff_t pyz = (ptrdiff_t)(p[1] * p[2]);
+    fftw_iodim64 dims[3] = {{(ptrdiff_t)p[0], pyz, pyz},
+                            {(ptrdiff_t)p[1], (ptrdiff_t)p[2], (ptrdiff_t)p[2]},
+                            {(ptrdiff_t)p[2], 1, 1}};
+    fftw_iodim64 comp = {3, (ptrdiff_t)cs, (ptrdiff_t)cs};
     fftw_complex *b = (fftw_complex *)op->buf;
-    fftw_plan full = fftw_plan_many_dft(3, dims, 3, b, NULL, 1, (int)cs, b, NULL, 1,
-                                        (int)cs, FFTW_FORWARD, FFTW_ESTIMATE);
+    fftw_plan full =
+        fftw_plan_guru64_dft(3, dims, 1, &comp, b, b, FFTW_FORWARD, FFTW_ESTIMATE);
     if (!full)
         return dpz_err_set(err, DPZ_EFFTW,
                            "FFT operator: FFTW could not plan the kernel "
@@ -337,7 +343,9 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
         size_t a = iv / (ny * nz), b = iv / nz % ny, c = iv % nz;
         op->pos[v] = (a * L.p[1] + b) * L.p[2] + c;
     }
-    for (int a = 0, off = 0; a < 3; off += (int)L.p[a], a++)
+    /* Frequency folding: index q and p - q share the stored octant entry; components odd
+     * along the axis change sign on the upper half. */
+    for (size_t a = 0, off = 0; a < 3; off += L.p[a], a++)
         for (size_t q = 0; q < L.p[a]; q++) {
             int up = q > L.p[a] / 2;
             op->refl[off + q] = up ? L.p[a] - q : q;

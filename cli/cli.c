@@ -19,7 +19,8 @@
 
 /* Commands added by other files of the program (sweep, merge) register here too. */
 static const cli_cmd *const commands[] = {
-    &cli_cmd_shape, &cli_cmd_info, &cli_cmd_static, &cli_cmd_tensor, &cli_cmd_expand,
+    &cli_cmd_shape,  &cli_cmd_voxelize, &cli_cmd_info,
+    &cli_cmd_static, &cli_cmd_tensor,   &cli_cmd_expand,
 };
 #define N_COMMANDS (sizeof commands / sizeof commands[0])
 

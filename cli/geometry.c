@@ -9,12 +9,7 @@
 #include <strings.h>
 
 #include "dpz_shape.h"
-#if defined(__has_include)
-#if __has_include("dpz_stl.h")
 #include "dpz_stl.h"
-#define CLI_HAVE_STL 1
-#endif
-#endif
 #include "dpz_voxio.h"
 
 const char *cli_src_format_name(cli_src_format f)
@@ -86,22 +81,44 @@ int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
     case CLI_SRC_VTK:
         s = dpz_vtk_read_file(&g, path, max_cells, &e);
         if (s == DPZ_OK && (have_d || fractions)) {
-            if (g->source_kind != DPZ_SOURCE_SHAPE) {
-                dpz_grid_destroy(g);
-                return cli_fail(
-                    "%s: %s is a plain voxel set: --spacing and --fractions "
-                    "apply only to a VTK file that records a shape (written by "
-                    "dipolize shape)",
-                    cmd, path);
-            }
-            dpz_shape shape;
-            s = dpz_shape_parse_record(g->source, &shape, &e);
             double dd = have_d ? d : g->d;
-            dpz_grid_destroy(g);
-            g = NULL;
-            if (s == DPZ_OK) {
-                cli_progress(a, "re-voxelizing the recorded shape at %.4g m", dd);
-                s = dpz_shape_voxelize(&g, &shape, dd, fractions, 4, max_cells, &e);
+            if (g->source_kind == DPZ_SOURCE_SHAPE) {
+                dpz_shape shape;
+                s = dpz_shape_parse_record(g->source, &shape, &e);
+                dpz_grid_destroy(g);
+                g = NULL;
+                if (s == DPZ_OK) {
+                    cli_progress(a, "re-voxelizing the recorded shape at %.4g m", dd);
+                    s = dpz_shape_voxelize(&g, &shape, dd, fractions, 4, max_cells, &e);
+                }
+            } else if (g->source_kind == DPZ_SOURCE_MESH) {
+                double unit_m;
+                char mesh_path[1024];
+                s = dpz_mesh_parse_record(g->source, &unit_m, mesh_path, sizeof mesh_path,
+                                          &e);
+                dpz_grid_destroy(g);
+                g = NULL;
+                if (s == DPZ_OK) {
+                    FILE *mf = fopen(mesh_path, "rb");
+                    if (!mf)
+                        return cli_fail("%s: %s records the mesh %s, which cannot be "
+                                        "opened (%s): re-voxelize the STL file itself",
+                                        cmd, path, mesh_path, strerror(errno));
+                    fclose(mf);
+                    cli_progress(a, "re-voxelizing the recorded mesh %s at %.4g m",
+                                 mesh_path, dd);
+                    double vol = -1.0;
+                    s = dpz_stl_voxelize_file(&g, mesh_path, unit_m, dd, fractions,
+                                              max_cells, &vol, &e);
+                    if (mesh_volume)
+                        *mesh_volume = vol;
+                }
+            } else {
+                dpz_grid_destroy(g);
+                return cli_fail("%s: %s is a plain voxel set: --spacing and --fractions "
+                                "apply only to a VTK file that records a shape or a mesh "
+                                "(written by dipolize shape or voxelize)",
+                                cmd, path);
             }
         }
         break;
@@ -128,15 +145,11 @@ int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
         double scale;
         if (dpz_units_length_unit("--stl-unit", unit, &scale, &e) != DPZ_OK)
             return cli_fail_err(cmd, &e);
-#ifdef CLI_HAVE_STL
         double vol = -1.0;
+        cli_progress(a, "voxelizing the mesh %s at %.4g m", path, d);
         s = dpz_stl_voxelize_file(&g, path, scale, d, fractions, max_cells, &vol, &e);
         if (mesh_volume)
             *mesh_volume = vol;
-#else
-        (void)scale;
-        return cli_fail("%s: %s: this build cannot read STL meshes", cmd, path);
-#endif
         break;
     }
     }

@@ -150,7 +150,7 @@ dpz_status dpz_vsh_eval(size_t nmax, const double dir[3], double complex *C,
     if (nmax < 1 || nmax > DPZ_VSWF_NMAX)
         return dpz_err_set(err, DPZ_EINVAL, "vswf: order %zu outside 1..%d", nmax,
                            DPZ_VSWF_NMAX);
-    double ct, st, cp, sp;
+    double ct = 1.0, st = 0.0, cp = 1.0, sp = 0.0; /* set by angles() */
     if (!dir || angles(dir, &ct, &st, &cp, &sp) != 0)
         return dpz_err_set(err, DPZ_EINVAL, "vswf: direction is zero or not finite");
     vsh_fill(nmax, ct, st, cp, sp, C, B, P);
@@ -205,7 +205,7 @@ dpz_status dpz_vswf_eval(dpz_vswf_kind kind, size_t nmax, double k, const double
     double complex Cv[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
     double complex Bv[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
     double complex Pv[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
-    double ct, st, cp, sp;
+    double ct = 1.0, st = 0.0, cp = 1.0, sp = 0.0; /* set by angles() */
     angles(r, &ct, &st, &cp, &sp);
     vsh_fill(nmax, ct, st, cp, sp, Cv, N ? Bv : NULL, N ? Pv : NULL);
     for (size_t n = 1; n <= nmax; n++) {
@@ -291,7 +291,7 @@ dpz_status dpz_vswf_plane_wave(size_t nmax, const double khat[3],
     if (nmax < 1 || nmax > DPZ_VSWF_NMAX)
         return dpz_err_set(err, DPZ_EINVAL, "vswf: order %zu outside 1..%d", nmax,
                            DPZ_VSWF_NMAX);
-    double ct, st, cp, sp;
+    double ct = 1.0, st = 0.0, cp = 1.0, sp = 0.0; /* set by angles() */
     if (!khat || angles(khat, &ct, &st, &cp, &sp) != 0)
         return dpz_err_set(err, DPZ_EINVAL, "vswf: propagation direction is zero");
     double complex Cv[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];

@@ -535,24 +535,24 @@ dpz_status dpz_vtk_read(dpz_grid **out, const char *buf, size_t len, const char 
             have_labels = 1;
             dest = 0;
         }
-        /* An optional LOOKUP_TABLE line precedes the values. */
-        size_t save_pos = c.pos, save_line = c.line;
-        r = next_content_line(&c, line, &ln);
-        if (r < 0) {
-            st = err ? err->code : DPZ_EFORMAT;
-            goto fail;
-        }
-        char lt[MAX_LINE];
-        memcpy(lt, line, sizeof lt);
-        char *lw[4];
-        int nlw = r > 0 ? split_words(lt, lw, 4) : 0;
-        if (!(nlw >= 1 && strcasecmp(lw[0], "LOOKUP_TABLE") == 0)) {
-            c.pos = save_pos;
-            c.line = save_line;
-        } else if (nlw != 2) {
-            st = dpz_err_set(err, DPZ_EFORMAT,
-                             WHO ": %s: line %zu: LOOKUP_TABLE needs a name", name, ln);
-            goto fail;
+        /* An optional LOOKUP_TABLE line precedes the values. Peek without reading a
+         * line: without it, binary data (NUL bytes included) follow directly. */
+        size_t peek = c.pos;
+        while (peek < c.len && strchr(" \t\r\n", c.buf[peek]) && c.buf[peek])
+            peek++;
+        if (c.len - peek >= 12 && strncasecmp(c.buf + peek, "LOOKUP_TABLE", 12) == 0) {
+            r = next_content_line(&c, line, &ln);
+            if (r < 0) {
+                st = err ? err->code : DPZ_EFORMAT;
+                goto fail;
+            }
+            char *lw[4];
+            if (split_words(line, lw, 4) != 2) {
+                st = dpz_err_set(err, DPZ_EFORMAT,
+                                 WHO ": %s: line %zu: LOOKUP_TABLE needs one name", name,
+                                 ln);
+                goto fail;
+            }
         }
         if (binary)
             st = read_binary(&c, total, vtypes[ti].type, vtypes[ti].size, &d3, dest,

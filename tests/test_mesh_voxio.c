@@ -320,6 +320,34 @@ static void test_vtk_read_binary_every_type(void **state)
     }
 }
 
+/* Binary data straight after the SCALARS line (LOOKUP_TABLE is optional), starting with
+ * a zero byte and a newline byte. */
+static void test_vtk_read_binary_without_lookup_table(void **state)
+{
+    (void)state;
+    const char *head =
+        "# vtk DataFile Version 3.0\nno table\nBINARY\n"
+        "DATASET STRUCTURED_POINTS\nDIMENSIONS 3 1 1\nSPACING 1e-9 1e-9 1e-9\n"
+        "ORIGIN 0 0 0\nPOINT_DATA 3\nSCALARS labels unsigned_char 1\n";
+    char buf[512];
+    size_t hl = strlen(head);
+    memcpy(buf, head, hl);
+    buf[hl] = 0, buf[hl + 1] = 10, buf[hl + 2] = 7;
+    dpz_grid *g = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_vtk_read(&g, buf, hl + 3, "t.vtk", 0, &err), DPZ_OK);
+    assert_int_equal(g->label[0], 0);
+    assert_int_equal(g->label[1], 10);
+    assert_int_equal(g->label[2], 7);
+    dpz_grid_destroy(g);
+    /* With a malformed LOOKUP_TABLE line. */
+    const char *bad = "# vtk DataFile Version 3.0\nt\nASCII\nDATASET STRUCTURED_POINTS\n"
+                      "DIMENSIONS 1 1 1\nSPACING 1 1 1\nPOINT_DATA 1\nSCALARS a int\n"
+                      "LOOKUP_TABLE\n1\n";
+    assert_int_equal(dpz_vtk_read(&g, bad, strlen(bad), "t.vtk", 0, &err), DPZ_EFORMAT);
+    assert_non_null(strstr(err.msg, "line 9: LOOKUP_TABLE needs one name"));
+}
+
 /* CELL_DATA: DIMENSIONS count points, voxels are the cells between them. */
 static void test_vtk_read_cell_data(void **state)
 {
@@ -1039,6 +1067,7 @@ int main(void)
         cmocka_unit_test(test_vtk_shape_record_round_trip),
         cmocka_unit_test(test_vtk_read_ascii_layout),
         cmocka_unit_test(test_vtk_read_binary_every_type),
+        cmocka_unit_test(test_vtk_read_binary_without_lookup_table),
         cmocka_unit_test(test_vtk_read_cell_data),
         cmocka_unit_test(test_vtk_rejects_malformed),
         cmocka_unit_test(test_vtk_rejects_truncated_binary),

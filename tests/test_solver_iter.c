@@ -447,6 +447,129 @@ static void test_iter_static_sphere_polarizability(void **state)
     free(x);
 }
 
+/* Energy conservation of the discrete-dipole solution for a lossless material (optical
+ * theorem; Draine 1988, sec. II and eqs. 34-36): with Im(1/alpha) = -k^3/(6 pi) exactly
+ * (cm-rr and ldr for real eps), the extinction cross section from the forward amplitude,
+ *   C_ext = k Im(sum_j E_inc(r_j)^* . p~_j) / |E0|^2,
+ * equals the scattering cross section from the far field, computed independently of the
+ * interaction kernel by quadrature over directions:
+ *   C_sca = (k^4/(16 pi^2)) int |P - (P . n) n|^2 dOmega,  P(n) = sum_j p~_j e^{-ik
+ * n.r_j} (Jackson eq. 9.22 for the far field of a dipole, summed with phases).
+ * Gauss-Legendre in cos(theta) x trapezoid in phi integrate the band-limited integrand (k
+ * r_max ~ 1.5) to rounding; TOL_ENERGY allows for the solver tolerance 1e-11. */
+#define TOL_ENERGY 1e-8
+static double sca_cross_section(const dpz_grid *g, const double complex *p, double k)
+{
+    enum { NT = 32, NP = 64 };
+    /* Gauss-Legendre nodes on [-1, 1] by Newton iteration on P_NT (A&S 25.4.29). */
+    double mu[NT], w[NT];
+    for (int i = 0; i < NT; i++) {
+        double z = cos(3.14159265358979323846 * (i + 0.75) / (NT + 0.5)), dp = 1;
+        for (int it = 0; it < 100; it++) {
+            double p0 = 1, p1 = z;
+            for (int m = 2; m <= NT; m++) {
+                double p2 = ((2.0 * m - 1) * z * p1 - (m - 1.0) * p0) / m;
+                p0 = p1;
+                p1 = p2;
+            }
+            dp = NT * (z * p1 - p0) / (z * z - 1);
+            double dz = p1 / dp;
+            z -= dz;
+            if (fabs(dz) < 1e-16)
+                break;
+        }
+        double p0 = 1, p1 = z;
+        for (int m = 2; m <= NT; m++) {
+            double p2 = ((2.0 * m - 1) * z * p1 - (m - 1.0) * p0) / m;
+            p0 = p1;
+            p1 = p2;
+        }
+        dp = NT * (z * p1 - p0) / (z * z - 1);
+        mu[i] = z;
+        w[i] = 2 / ((1 - z * z) * dp * dp);
+    }
+    double sum = 0;
+    for (int i = 0; i < NT; i++) {
+        double st = sqrt(1 - mu[i] * mu[i]);
+        for (int j = 0; j < NP; j++) {
+            double ph = 2 * 3.14159265358979323846 * j / NP;
+            double nv[3] = {st * cos(ph), st * sin(ph), mu[i]};
+            double complex P[3] = {0, 0, 0};
+            for (size_t v = 0; v < g->n_occ; v++) {
+                double r[3];
+                dpz_grid_centre(g, g->occ[v], r);
+                double complex e =
+                    cexp(CMPLX(0, -k * (nv[0] * r[0] + nv[1] * r[1] + nv[2] * r[2])));
+                for (int a = 0; a < 3; a++)
+                    P[a] += p[3 * v + a] * e;
+            }
+            double complex pn = P[0] * nv[0] + P[1] * nv[1] + P[2] * nv[2];
+            double q = 0;
+            for (int a = 0; a < 3; a++)
+                q += pow(cabs(P[a] - pn * nv[a]), 2);
+            sum += w[i] * (2 * 3.14159265358979323846 / NP) * q;
+        }
+    }
+    return pow(k, 4) / (16 * 3.14159265358979323846 * 3.14159265358979323846) * sum;
+}
+
+static void test_iter_energy_conservation_lossless(void **state)
+{
+    (void)state;
+    const dpz_dipole_model models[] = {DPZ_DIPOLE_CMRR, DPZ_DIPOLE_LDR};
+    for (int m = 0; m < 2; m++) {
+        /* A non-symmetric particle: an L-shaped block, eps = 3.1 relative to the host. */
+        dpz_grid *g = NULL;
+        dpz_err err;
+        assert_int_equal(dpz_grid_create(&g, 5, 4, 3, SPACING, 0, &err), DPZ_OK);
+        for (size_t i = 0; i < 5; i++)
+            for (size_t j = 0; j < 4; j++)
+                for (size_t l = 0; l < 3; l++)
+                    g->label[dpz_grid_index(g, i, j, l)] = (i < 2 || j < 2) ? 1 : 0;
+        assert_int_equal(dpz_grid_update(g, &err), DPZ_OK);
+        double k = 0.45 / SPACING;
+        double complex eps[256];
+        for (int i = 0; i < 256; i++)
+            eps[i] = 3.1;
+        size_t n = 3 * g->n_occ;
+        double complex *ia = malloc(g->n_occ * sizeof *ia), *b = malloc(n * sizeof *b),
+                       *x = calloc(n, sizeof *x);
+        assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.0, k, models[m], ia, &err),
+                         DPZ_OK);
+        /* Plane wave along (0.6, 0, 0.8), polarized along y with 1 V/m. */
+        const double kh[3] = {0.6, 0.0, 0.8};
+        for (size_t v = 0; v < g->n_occ; v++) {
+            double r[3];
+            dpz_grid_centre(g, g->occ[v], r);
+            double complex e =
+                cexp(CMPLX(0, k * (kh[0] * r[0] + kh[1] * r[1] + kh[2] * r[2])));
+            b[3 * v] = 0;
+            b[3 * v + 1] = e;
+            b[3 * v + 2] = 0;
+        }
+        dpz_fftop *op = NULL;
+        assert_int_equal(dpz_fftop_create(&op, g, k, models[m], ia, NULL, &err), DPZ_OK);
+        dpz_linop L = dpz_fftop_linop(op);
+        dpz_solve_opts o = dpz_solve_opts_default();
+        o.tol = 1e-11;
+        dpz_solve_info info;
+        assert_int_equal(dpz_solve(&L, b, x, &o, &info, &err), DPZ_OK);
+        dpz_solve_info_free(&info);
+        double complex s = 0;
+        for (size_t i = 0; i < n; i++)
+            s += conj(b[i]) * x[i];
+        double c_ext = k * cimag(s);
+        double c_sca = sca_cross_section(g, x, k);
+        assert_true(c_ext > 0);
+        assert_close(c_sca, c_ext, TOL_ENERGY);
+        dpz_fftop_destroy(op);
+        dpz_grid_destroy(g);
+        free(ia);
+        free(b);
+        free(x);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -461,6 +584,7 @@ int main(void)
         cmocka_unit_test(test_iter_names_and_bad_options),
         cmocka_unit_test(test_iter_allocation_failure),
         cmocka_unit_test(test_iter_static_sphere_polarizability),
+        cmocka_unit_test(test_iter_energy_conservation_lossless),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -39,7 +39,7 @@ typedef struct dpz_solve_opts {
                                  10% over this many iterations (default 1000; 0 = off) */
 } dpz_solve_opts;
 
-/* Defaults as documented above. */
+/* Defaults as documented above, with kind BiCGSTAB and Jacobi on. */
 dpz_solve_opts dpz_solve_opts_default(void);
 
 typedef struct dpz_solve_info {
@@ -59,11 +59,18 @@ typedef struct dpz_iter dpz_iter;
 dpz_status dpz_iter_create(dpz_iter **out, size_t n, const dpz_solve_opts *opts,
                            dpz_err *err);
 void dpz_iter_destroy(dpz_iter *it);
-/* Starts a solve of A x = b from x0 (NULL: zero). Borrows A and b until the next set. */
+/* Starts a solve of A x = b from x0 (NULL: zero). Borrows A and b until the next set.
+ * Returns DPZ_OK once set up (the next dpz_iter_step returns DPZ_OK at once when x0
+ * already meets the tolerance or b = 0, which gives x = 0); DPZ_EINVAL for an operator of
+ * another order, a non-finite b or x0, or a zero diagonal entry with Jacobi on. A set
+ * object can be set again for the next right-hand side (its vectors are reused). */
 dpz_status dpz_iter_set(dpz_iter *it, const dpz_linop *A, const double complex *b,
                         const double complex *x0, dpz_err *err);
 /* One iteration: DPZ_CONTINUE while not done, DPZ_OK when converged, an error status
- * (DPZ_ENOCONV at max_iter, DPZ_EBREAKDOWN, DPZ_ESTAGNATION, operator errors) otherwise. */
+ * (DPZ_ENOCONV at max_iter, DPZ_EBREAKDOWN, DPZ_ESTAGNATION, operator errors) otherwise.
+ * Convergence is declared only after the true residual ||b - A x|| / ||b||, recomputed
+ * with one extra operator application, meets the tolerance; a recurrence residual below
+ * it that the true residual contradicts restarts the recurrence instead. */
 dpz_status dpz_iter_step(dpz_iter *it, dpz_err *err);
 const double complex *dpz_iter_solution(const dpz_iter *it);
 double dpz_iter_residual(const dpz_iter *it);

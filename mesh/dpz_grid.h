@@ -1,8 +1,8 @@
 /* dpz_grid.h: the voxel grid, the object every other layer works on.
  *
- * A grid is a box of nx * ny * nz cubic voxels of edge d (metres). Voxel (i, j, k) has its
- * centre at origin + d * (i, j, k) (origin in metres: the centre of voxel (0,0,0), in the
- * grid frame). Each voxel carries a uint8 label: 0 is the host medium, 1..255 are
+ * A grid is a box of nx * ny * nz cubic voxels of edge d (metres). Voxel (i, j, k) has
+ * its centre at origin + d * (i, j, k) (origin in metres: the centre of voxel (0,0,0), in
+ * the grid frame). Each voxel carries a uint8 label: 0 is the host medium, 1..255 are
  * materials. Arrays are flat and row-major with k fastest:
  *     index(i, j, k) = (i * ny + j) * nz + k.
  * An optional per-voxel fill fraction in [0, 1] describes boundary voxels that are only
@@ -26,20 +26,22 @@ extern "C" {
 /* What the grid describes, so that it can be re-voxelized at another spacing. */
 typedef enum {
     DPZ_SOURCE_VOXELS = 0, /* a plain voxel set: the voxels are the object */
-    DPZ_SOURCE_SHAPE = 1,  /* a built-in shape; `source` holds its specification */
-    DPZ_SOURCE_MESH = 2    /* an STL mesh; `source` holds "path unit" */
+    DPZ_SOURCE_SHAPE = 1,  /* a built-in shape; `source` holds its record
+                              "dipolize-shape v1 KIND key=value ..." (dpz_shape.h) */
+    DPZ_SOURCE_MESH = 2    /* an STL mesh; `source` holds the record
+                              "dipolize-mesh v1 unit=METRES path=PATH" (dpz_stl.h) */
 } dpz_source_kind;
 
 typedef struct dpz_grid {
-    size_t nx, ny, nz;       /* voxels per axis (each >= 1) */
-    double d;                /* voxel edge, m (> 0, finite) */
-    double origin[3];        /* centre of voxel (0,0,0) in the grid frame, m */
-    uint8_t *label;          /* nx*ny*nz labels, index (i*ny + j)*nz + k; 0 = host */
-    float *fill;             /* NULL, or nx*ny*nz fill fractions in [0, 1] */
-    size_t n_occ;            /* number of occupied voxels (label != 0) */
-    size_t *occ;             /* n_occ linear indices of occupied voxels, ascending */
+    size_t nx, ny, nz; /* voxels per axis (each >= 1) */
+    double d;          /* voxel edge, m (> 0, finite) */
+    double origin[3];  /* centre of voxel (0,0,0) in the grid frame, m */
+    uint8_t *label;    /* nx*ny*nz labels, index (i*ny + j)*nz + k; 0 = host */
+    float *fill;       /* NULL, or nx*ny*nz fill fractions in [0, 1] */
+    size_t n_occ;      /* number of occupied voxels (label != 0) */
+    size_t *occ;       /* n_occ linear indices of occupied voxels, ascending */
     dpz_source_kind source_kind;
-    char source[1024];       /* shape specification or mesh reference; "" for voxels */
+    char source[1024]; /* shape specification or mesh reference; "" for voxels */
 } dpz_grid;
 
 /* Creates an all-host grid (every label 0). Fails with DPZ_EINVAL for a zero dimension or
@@ -80,8 +82,8 @@ void dpz_grid_centroid(const dpz_grid *grid, double c[3]);
 /* Voxel count of every label: counts[0..255]. */
 void dpz_grid_label_counts(const dpz_grid *grid, size_t counts[256]);
 
-/* New grid cropped to the bounding box of the occupied voxels (keeping physical positions:
- * the origin moves accordingly). An empty grid gives DPZ_EINVAL. */
+/* New grid cropped to the bounding box of the occupied voxels (keeping physical
+ * positions: the origin moves accordingly). An empty grid gives DPZ_EINVAL. */
 dpz_status dpz_grid_crop(dpz_grid **out, const dpz_grid *grid, dpz_err *err);
 
 #ifdef __cplusplus

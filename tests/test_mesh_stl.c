@@ -684,6 +684,30 @@ static void test_stl_survives_mutations(void **state)
     free(m.t);
 }
 
+/* The shipped example meshes (a 20 nm cube, ASCII and binary with a header starting with
+ * "solid") read to the same mesh: volume 20^3 nm^3, 10^3 voxels at 2 nm. */
+static void test_stl_example_files(void **state)
+{
+    (void)state;
+    const char *files[] = {"tests/data/mesh/cube_20nm.stl",
+                           "tests/data/mesh/cube_20nm_binary.stl"};
+    for (int q = 0; q < 2; q++) {
+        dpz_mesh *mesh = NULL;
+        dpz_err err;
+        dpz_status st = dpz_stl_read_file(&mesh, dpz_test_path(files[q]), 1e-9, &err);
+        if (st != DPZ_OK)
+            print_error("%s\n", err.msg);
+        assert_int_equal(st, DPZ_OK);
+        assert_int_equal(mesh->n_tri, 12);
+        assert_close(mesh->volume_m3, 8000e-27, 1e-12);
+        dpz_grid *g = vox_ok(mesh, 2e-9, 0);
+        assert_int_equal(g->n_occ, 1000);
+        assert_int_equal(g->nx * g->ny * g->nz, 1000);
+        dpz_grid_destroy(g);
+        dpz_mesh_destroy(mesh);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -695,6 +719,7 @@ int main(void)
         cmocka_unit_test(test_stl_rejects_malformed),
         cmocka_unit_test(test_stl_voxelize_errors_and_allocation),
         cmocka_unit_test(test_stl_survives_mutations),
+        cmocka_unit_test(test_stl_example_files),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -47,8 +47,8 @@ dpz_status dpz_dipole_parse(const char *name, dpz_dipole_model *model, dpz_err *
 /* ---- Green tensor ------------------------------------------------------------------ */
 
 /* G(R) = e^{ikR}/(4 pi R^3) [ (k^2R^2 + ikR - 1) I - (k^2R^2 + 3ikR - 3) RR/R^2 ]
- * (Jackson, Classical Electrodynamics, 3rd ed., eq. 9.18, field of an electric dipole,
- * divided by eps0 eps_h; static limit (3 RR - I)/(4 pi R^3)). */
+ * (Jackson, Classical Electrodynamics, 3rd ed., eq. 9.18 (number from memory), field of
+ * an electric dipole, divided by eps0 eps_h; static limit (3 RR - I)/(4 pi R^3)). */
 void dpz_green_eval(double k, const double R[3], double complex g[6])
 {
     double r2 = R[0] * R[0] + R[1] * R[1] + R[2] * R[2];
@@ -217,17 +217,18 @@ double complex dpz__igt_self_integral(double k, double d, int order)
  * ------------------------------------------------------------ */
 
 /* Clausius-Mossotti in SI volume units: alpha_CM = 3 d^3 (eps - 1)/(eps + 2)
- * (Purcell & Pennypacker, ApJ 186, 705 (1973); Draine, ApJ 333, 848 (1988), eq. 3, times
- * 4 pi for SI volume units). */
+ * (Purcell & Pennypacker, ApJ 186, 705 (1973); Draine, ApJ 333, 848 (1988); their
+ * Gaussian-unit form times 4 pi for SI volume units). */
 static double complex inv_alpha_cm(double complex eps, double d)
 {
     return (eps + 2.0) / (3.0 * d * d * d * (eps - 1.0));
 }
 
-/* Lattice dispersion relation coefficients (Draine & Goodman, ApJ 405, 685 (1993),
- * eq. 4.4 and the values below it), with S = sum_j a_j^2 e_j^2 averaged over orthogonal
- * unit vectors a (propagation) and e (polarization) drawn uniformly: <a_j^2 e_j^2> =
- * 1/15 per axis, so S = 1/5 (orientation average, e.g. Draine & Flatau 1994). */
+/* Lattice dispersion relation coefficients (Draine & Goodman, ApJ 405, 685 (1993); the
+ * equation numbers below are from memory), with S = sum_j a_j^2 e_j^2 averaged over
+ * orthonormal pairs a (propagation), e (polarization) drawn uniformly: the isotropic
+ * average <a_i a_j e_k e_l> = (4 d_ij d_kl - d_ik d_jl - d_il d_jk)/30 gives
+ * <a_j^2 e_j^2> = 2/30 per axis, so S = 1/5. */
 #define LDR_B1 (-1.8915316)
 #define LDR_B2 0.1648469
 #define LDR_B3 (-1.7700004)
@@ -242,13 +243,13 @@ double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_r
     double kd = k * d;
     switch (model) {
     case DPZ_DIPOLE_CMRR:
-        /* Radiative reaction: 1/alpha = 1/alpha_CM - i k^3/(6 pi) (Draine 1988, eq. 4,
-         * in SI volume units). */
+        /* Radiative reaction: 1/alpha = 1/alpha_CM - i k^3/(6 pi) (Draine, ApJ 333, 848
+         * (1988); in SI volume units). */
         return inv_cm - CMPLX(0.0, k * k * k / (6.0 * DPZ_SOLVER_PI));
     case DPZ_DIPOLE_LDR: {
-        /* Draine & Goodman (1993) eq. 4.3 in Gaussian units, 1/alpha = 1/alpha_CM +
-         * (1/d^3)[(b1 + m^2 b2 + m^2 b3 S)(kd)^2 - (2/3) i (kd)^3]; SI volume units
-         * multiply alpha by 4 pi. The last term equals -i k^3/(6 pi). */
+        /* Draine & Goodman (1993), eq. 4.3 (from memory), in Gaussian units, 1/alpha =
+         * 1/alpha_CM + (1/d^3)[(b1 + m^2 b2 + m^2 b3 S)(kd)^2 - (2/3) i (kd)^3]; SI
+         * volume units multiply alpha by 4 pi. The last term equals -i k^3/(6 pi). */
         double complex m2 = eps_rel;
         double complex br = LDR_B1 + m2 * LDR_B2 + m2 * LDR_B3 * LDR_S;
         return inv_cm + (br * kd * kd - CMPLX(0.0, 2.0 / 3.0 * kd * kd * kd)) /
@@ -261,8 +262,8 @@ double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_r
          * gives 1/alpha = 1/alpha_CM - M/d^3 with the dimensionless
          * M = int_cube (G - G_static) dV = (k^2/(6 pi)) J I, J = int_cube e^{ikR}/R dV,
          * because tr G(R) = k^2 e^{ikR}/(2 pi R), tr G_static = 0 and the cube integral
-         * of a tensor is isotropic by cubic symmetry (Chaumet, Sentenac & Rahmani 2004;
-         * Yurkin & Hoekstra, JQSRT 106, 558 (2007), sec. 3.2). */
+         * of a tensor is isotropic by cubic symmetry (Chaumet, Sentenac & Rahmani, PRE
+         * 70, 036606 (2004); Yurkin & Hoekstra, JQSRT 106, 558 (2007)). */
         double complex J = dpz__igt_self_integral(k, d, 24);
         return inv_cm - k * k / (6.0 * DPZ_SOLVER_PI) * J / (d * d * d);
     }

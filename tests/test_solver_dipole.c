@@ -35,7 +35,7 @@ static void test_dipole_static_is_clausius_mossotti(void **state)
                   CMPLX(89.0 / 366.0, -3.0 / 366.0) / (D * D * D), TOL_FORMULA);
 }
 
-/* Radiative reaction (Draine 1988, eq. 4, SI volume units): for real eps the imaginary
+/* Radiative reaction (Draine 1988, SI volume units): for real eps the imaginary
  * part of 1/alpha is exactly -k^3/(6 pi) and the real part stays Clausius-Mossotti. */
 static void test_dipole_radiative_reaction(void **state)
 {
@@ -50,12 +50,12 @@ static void test_dipole_radiative_reaction(void **state)
     assert_close(cimag(ia), -k * k * k / (6 * PI), TOL_FORMULA);
 }
 
-/* Lattice dispersion relation, Draine & Goodman (1993) eq. 4.3 with the coefficients of
- * their eq. 4.4 and the orientation average S = 1/5, by hand for eps = 2.25, kd = 0.3:
- * b1 + eps b2 + eps b3 / 5 = -1.8915316 + 0.3709055 - 0.7965002 = -2.3171263, so
- * d^3 Re(1/alpha) = 1.1333333 - 2.3171263 * 0.09 / (4 pi) = 1.1167381 and
- * d^3 Im(1/alpha) = -(0.3)^3 / (6 pi) = -0.0014323945. For eps = -10 + 1i the
- * coefficient is b1 + eps (b2 + b3/5) = (2.0e-7 - 0.18915318i), so d^3/alpha =
+/* Lattice dispersion relation, Draine & Goodman (1993) (equation numbers from memory)
+ * eq. 4.3 with the coefficients of their eq. 4.4 and the orientation average S = 1/5, by
+ * hand for eps = 2.25, kd = 0.3: b1 + eps b2 + eps b3 / 5 = -1.8915316 + 0.3709055 -
+ * 0.7965002 = -2.3171263, so d^3 Re(1/alpha) = 1.1333333 - 2.3171263 * 0.09 / (4 pi)
+ * = 1.1167381 and d^3 Im(1/alpha) = -(0.3)^3 / (6 pi) = -0.0014323945. For eps = -10 + 1i
+ * the coefficient is b1 + eps (b2 + b3/5) = (2.0e-7 - 0.18915318i), so d^3/alpha =
  * 0.24316940 - 0.0095514312i - 0.0014323945i. */
 static void test_dipole_ldr_coefficients(void **state)
 {
@@ -117,8 +117,8 @@ static void test_dipole_igt_self_term_limits(void **state)
 }
 
 /* Cube-averaged Green tensor, offsets near the origin, against scipy tplquad of the Green
- * tensor of Jackson eq. 9.18 over the source cube (d = 1 m, k = 0.5 1/m; requested
- * tolerance 1e-12; tests/data/solver/igt_reference.py). */
+ * tensor of Jackson eq. 9.18 (number from memory) over the source cube (d = 1 m, k = 0.5
+ * 1/m; requested tolerance 1e-12; tests/data/solver/igt_reference.py). */
 static void test_dipole_igt_average_matches_scipy(void **state)
 {
     (void)state;

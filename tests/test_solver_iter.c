@@ -382,10 +382,10 @@ static void test_iter_allocation_failure(void **state)
 /* Physics check of operator + solver together: the static (k = 0) polarizability of a
  * voxelized sphere of eps = 2.25 (radius 10 voxels, 4169 dipoles, about 20 per diameter)
  * against the sphere's 4 pi a^3 (eps - 1)/(eps + 2) with a = a_eq (Bohren & Huffman
- * 1983, eq. 5.15). The lattice (staircase) error at this resolution is a few tenths of a
- * percent (measured 0.35%) and falls roughly linearly with the spacing: TOL_LATTICE =
- * 1% keeps a margin while catching any missing factor (4 pi, 3, a sign). The tensor is
- * diagonal and isotropic by the cubic symmetry of the voxel set. */
+ * 1983, eq. 5.15, number from memory). The lattice (staircase) error at this resolution
+ * is a few tenths of a percent (measured 0.35%) and falls roughly linearly with the
+ * spacing: TOL_LATTICE = 1% keeps a margin while catching any missing factor (4 pi, 3, a
+ * sign). The tensor is diagonal and isotropic by the cubic symmetry of the voxel set. */
 #define TOL_LATTICE 1e-2
 static void test_iter_static_sphere_polarizability(void **state)
 {
@@ -454,9 +454,10 @@ static void test_iter_static_sphere_polarizability(void **state)
  * equals the scattering cross section from the far field, computed independently of the
  * interaction kernel by quadrature over directions:
  *   C_sca = (k^4/(16 pi^2)) int |P - (P . n) n|^2 dOmega,  P(n) = sum_j p~_j e^{-ik
- * n.r_j} (Jackson eq. 9.22 for the far field of a dipole, summed with phases).
- * Gauss-Legendre in cos(theta) x trapezoid in phi integrate the band-limited integrand (k
- * r_max ~ 1.5) to rounding; TOL_ENERGY allows for the solver tolerance 1e-11. */
+ * n.r_j} (Jackson eq. 9.22, number from memory, for the far field of a dipole, summed
+ * with phases). Gauss-Legendre in cos(theta) x trapezoid in phi integrate the
+ * band-limited integrand (k r_max ~ 1.5) to rounding; TOL_ENERGY allows for the solver
+ * tolerance 1e-11. */
 #define TOL_ENERGY 1e-8
 static double sca_cross_section(const dpz_grid *g, const double complex *p, double k)
 {

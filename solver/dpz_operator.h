@@ -97,7 +97,11 @@ dpz_linop dpz_denseop_linop(dpz_denseop *op);
 /* Fills inv_alpha[v] (m^-3) for every occupied voxel v from eps_label[label] (relative to
  * vacuum), the host index n_h (eps_rel = eps / n_h^2), k (1/m), the model and the grid's
  * spacing. DPZ_EINVAL if an occupied label has a non-finite permittivity, or one equal to
- * the host's (alpha would vanish and 1/alpha be infinite); the message names the label. */
+ * the host's (alpha would vanish and 1/alpha be infinite); the message names the label.
+ * When grid->fill is set, a voxel of fill fraction f < 1 gets the Maxwell Garnett
+ * effective permittivity of the material mixed with the host (its Clausius-Mossotti
+ * polarizability is f times the full voxel's; see operator.c); a fraction outside (0, 1]
+ * on an occupied voxel gives DPZ_EINVAL. */
 dpz_status dpz_operator_inv_alpha(const dpz_grid *grid, const double complex eps_label[256],
                                   double host_index, double k, dpz_dipole_model model,
                                   double complex *inv_alpha, dpz_err *err);

@@ -326,6 +326,75 @@ static void test_fftop_rejects_bad_input(void **state)
     dpz_grid_destroy(g);
 }
 
+/* Partly filled boundary voxels: the Maxwell Garnett effective permittivity (Maxwell
+ * Garnett, Phil. Trans. R. Soc. A 203, 385 (1904)) makes the Clausius-Mossotti
+ * polarizability of a voxel filled to the fraction f equal to f times the full voxel's,
+ * 3 f d^3 (eps - 1)/(eps + 2) (SI volume units, Draine 1988 eq. 3 times 4 pi), plus the
+ * radiative reaction -i k^3/(6 pi) (Draine 1988 eq. 4) for cm-rr; ldr applies the lattice
+ * dispersion relation to the mixture's permittivity; a full voxel (f = 1) is unchanged.
+ */
+static void test_fftop_inv_alpha_partial_fill(void **state)
+{
+    (void)state;
+    /* Float fractions exactly representable, so the test compares the same f. */
+    static const float fills[8] = {1.0f,    0.375f, 0.8125f, 1.0f,
+                                   0.0625f, 1.0f,   0.5f,    0.25f};
+    const double tol = 1e-13; /* a few roundings of rational expressions */
+    dpz_grid *g = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_grid_create(&g, 2, 2, 2, SPACING, 0, &err), DPZ_OK);
+    memset(g->label, 1, 8);
+    assert_int_equal(dpz_grid_update(g, &err), DPZ_OK);
+    g->fill = malloc(8 * sizeof *g->fill);
+    memcpy(g->fill, fills, sizeof fills);
+    double complex eps[256];
+    for (int i = 0; i < 256; i++)
+        eps[i] = CMPLX(3.385, 0.27);
+    const double nh = 1.21, k = 0.41 / SPACING, d3 = SPACING * SPACING * SPACING;
+    double complex er = eps[1] / (nh * nh), beta = (er - 1.0) / (er + 2.0);
+    double complex ia[8], ib[8], ic[8];
+    /* cm-rr against the hand formula. */
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, k, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_OK);
+    for (size_t v = 0; v < 8; v++) {
+        double f = fills[g->occ[v]];
+        double complex want = 1.0 / (3.0 * f * d3 * beta) -
+                              CMPLX(0.0, k * k * k / (6.0 * 3.14159265358979323846));
+        assert_cclose(ia[v], want, tol);
+    }
+    /* ldr: the prescription evaluated at the mixture's permittivity, which satisfies the
+     * Maxwell Garnett relation (eps_eff - 1)/(eps_eff + 2) = f (eps - 1)/(eps + 2). */
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, k, DPZ_DIPOLE_LDR, ib, &err),
+                     DPZ_OK);
+    for (size_t v = 0; v < 8; v++) {
+        double f = fills[g->occ[v]];
+        double complex eff = (1.0 + 2.0 * f * beta) / (1.0 - f * beta);
+        assert_cclose((eff - 1.0) / (eff + 2.0), f * beta, tol);
+        assert_cclose(ib[v], dpz_dipole_inv_alpha(DPZ_DIPOLE_LDR, eff, k, SPACING), tol);
+    }
+    /* igt: its self-term correction does not depend on eps, so only the CM part moves. */
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, k, DPZ_DIPOLE_IGT, ic, &err),
+                     DPZ_OK);
+    double complex full = dpz_dipole_inv_alpha(DPZ_DIPOLE_IGT, er, k, SPACING);
+    for (size_t v = 0; v < 8; v++) {
+        double f = fills[g->occ[v]];
+        assert_cclose(ic[v], full + 1.0 / (3.0 * d3 * beta) * (1.0 / f - 1.0), tol);
+    }
+    /* Static limit: 1/alpha = (1/f) times the full voxel's Clausius-Mossotti inverse. */
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, 0.0, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_OK);
+    assert_cclose(ia[1] * fills[1], 1.0 / (3.0 * d3 * beta), tol);
+    /* A fraction outside (0, 1] on an occupied voxel is refused, naming the voxel. */
+    g->fill[6] = 0.0f;
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, k, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "voxel 6"));
+    g->fill[6] = 1.25f;
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, nh, k, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_EINVAL);
+    dpz_grid_destroy(g);
+}
+
 /* Replacing the diagonal equals building a new operator with it (the kernel is reused).
  */
 static void test_fftop_set_diag_matches_fresh(void **state)
@@ -422,6 +491,7 @@ int main(void)
         cmocka_unit_test(test_fftop_padding_and_memory),
         cmocka_unit_test(test_fftop_rejects_bad_input),
         cmocka_unit_test(test_fftop_set_diag_matches_fresh),
+        cmocka_unit_test(test_fftop_inv_alpha_partial_fill),
         cmocka_unit_test(test_fftop_allocation_failure),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -136,6 +136,33 @@ int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
                       cli_src_format *fmt, double *mesh_volume);
 const char *cli_src_format_name(cli_src_format f);
 
+/* ---- refinement (refine.c) */
+#define CLI_REFINE_MAX 4
+/* The object on LEVELS lattices, coarse to fine: grid[0] is the caller's grid (borrowed),
+ * the others are owned. Shapes and meshes are re-voxelized at d / (1 + k/2); plain voxel
+ * sets have each voxel split into (k+1)^3. */
+typedef struct cli_refine {
+    size_t n;
+    dpz_grid *grid[CLI_REFINE_MAX];
+    double d[CLI_REFINE_MAX]; /* spacing of each level, m */
+    const char *how;      /* "re-voxelized shape", "re-voxelized mesh", "split voxels" */
+    double v_true;        /* volume of the true object, m^3: the shape's formula, the mesh
+                             volume, or the voxel volume of a plain voxel set */
+    const char *v_source; /* "shape formula", "mesh", "voxels" or "finest voxels" */
+} cli_refine;
+/* --refine LEVELS (2..CLI_REFINE_MAX); *levels = 0 when absent. */
+int cli_refine_option(const cli_args *a, size_t *levels);
+int cli_refine_build(const cli_args *a, const dpz_grid *base, size_t levels,
+                     cli_refine *r);
+void cli_refine_free(cli_refine *r);
+/* Extrapolates m complex results per level (v[k * m + e], levels at spacings d[k], the
+ * last the finest) to zero spacing: out[e], with err[e] = (error of the real part, error
+ * of the imaginary part) as the real and imaginary parts. Callers extrapolate results
+ * divided by each level's voxel volume and multiply by v_true: the staircase volume
+ * oscillates with the spacing and would otherwise dominate the fit. */
+void cli_extrapolate(size_t n, const double *d, const double complex *v, size_t m,
+                     double complex *out, double complex *err);
+
 /* ---- materials */
 typedef struct cli_materials {
     dpz_material *mat[256]; /* per label (owned; NULL for label 0 and unused labels) */

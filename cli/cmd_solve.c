@@ -41,6 +41,12 @@ static double now_s(void)
     return (double)t.tv_sec + 1e-9 * (double)t.tv_nsec;
 }
 
+#define REFINE_HELP                                                                      \
+    "solve on N lattices (2..4: a recorded shape or mesh re-voxelized at d, d/1.5, "     \
+    "d/2, "                                                                              \
+    "d/2.5; a plain voxel set split into 1, 8, 27, 64 sub-voxels) and extrapolate "      \
+    "linearly to zero spacing, with an error estimate (default: off)"
+
 static const cli_opt tensor_opts[] = {
     {"--wavelength", "LEN", "vacuum wavelength (required), e.g. 600nm", 0},
     {"--origin", "X,Y,Z",
@@ -49,6 +55,7 @@ static const cli_opt tensor_opts[] = {
      "also solve one plane wave (along +z, x-polarized) for extinction, absorption and "
      "scattering cross sections, full and dipole-model",
      0},
+    {"--refine", "N", REFINE_HELP, 0},
     {NULL, NULL, NULL, 0},
 };
 static const cli_group tensor_group = {"Tensor", tensor_opts};
@@ -58,6 +65,7 @@ static const cli_opt static_opts[] = {
      "vacuum wavelength at which dispersive materials (nk:, drude:) are evaluated "
      "(required for them, ignored otherwise)",
      0},
+    {"--refine", "N", REFINE_HELP, 0},
     {NULL, NULL, NULL, 0},
 };
 static const cli_group static_group = {"Static", static_opts};
@@ -168,36 +176,131 @@ static void grid_table(const dpz_grid *g, double host)
 
 /* ---- static
  * ------------------------------------------------------------------------------ */
+/* Per-level grid facts of a refinement. */
+static cJSON *refine_json(const cli_refine *r)
+{
+    cJSON *o = cJSON_CreateObject();
+    double vol[CLI_REFINE_MAX], vox[CLI_REFINE_MAX];
+    for (size_t k = 0; k < r->n; k++) {
+        vol[k] = dpz_grid_volume(r->grid[k]);
+        vox[k] = (double)r->grid[k]->n_occ;
+    }
+    cJSON_AddNumberToObject(o, "levels", (double)r->n);
+    cJSON_AddStringToObject(o, "how", r->how);
+    cJSON_AddItemToObject(o, "spacings_m", cli_json_doubles(r->d, r->n));
+    cJSON_AddItemToObject(o, "voxels", cli_json_doubles(vox, r->n));
+    cJSON_AddItemToObject(o, "volumes_m3", cli_json_doubles(vol, r->n));
+    cJSON_AddNumberToObject(o, "true_volume_m3", r->v_true);
+    cJSON_AddStringToObject(o, "true_volume_from", r->v_source);
+    cJSON_AddStringToObject(
+        o, "method",
+        "value/V of each level fitted linearly in the spacing, "
+        "extrapolated to zero spacing, times the true volume; error = "
+        "extrapolation step + largest fit residual");
+    return o;
+}
+
+/* Extrapolates m values per level (level-major) after dividing each level by its voxel
+ * volume, and scales back by the true volume. */
+static int extrapolate_normalized(const cli_refine *r, const double complex *v, size_t m,
+                                  double complex *out, double complex *err)
+{
+    double complex *w = calloc(r->n * m, sizeof *w);
+    if (!w)
+        return cli_fail("out of memory"), CLI_FAILED;
+    for (size_t k = 0; k < r->n; k++) {
+        double vk = dpz_grid_volume(r->grid[k]);
+        for (size_t e = 0; e < m; e++)
+            w[k * m + e] = v[k * m + e] / vk;
+    }
+    cli_extrapolate(r->n, r->d, w, m, out, err);
+    for (size_t e = 0; e < m; e++) {
+        out[e] *= r->v_true;
+        err[e] *= r->v_true;
+    }
+    free(w);
+    return CLI_OK;
+}
+
+static cJSON *error_tensor_json(const double complex *err)
+{
+    return cli_json_tensor3_flat(err);
+}
+
+static void refine_table(const cli_refine *r)
+{
+    printf("refinement (%s), spacing -> voxels:", r->how);
+    for (size_t k = 0; k < r->n; k++)
+        printf(" %.4g m -> %zu%s", r->d[k], r->grid[k]->n_occ, k + 1 < r->n ? "," : "");
+    printf("\nvalues extrapolated linearly to zero spacing; error = extrapolation step + "
+           "fit "
+           "residual\n");
+}
+
 static int run_static(const cli_args *a)
 {
     job j;
+    cli_refine ref;
+    memset(&ref, 0, sizeof ref);
+    size_t levels = 0;
     int rc = job_prepare(a, &j);
     double lam = 0.0;
     if (rc == CLI_OK)
         rc = fixed_eps(a, &j, &lam);
+    if (rc == CLI_OK)
+        rc = cli_refine_option(a, &levels);
+    if (rc == CLI_OK && levels)
+        rc = cli_refine_build(a, j.grid, levels, &ref);
     if (rc != CLI_OK) {
         job_free(&j);
         return rc;
     }
-    double complex chi[3][3];
-    dpz_rhs_report rhs[3];
+    size_t nl = levels ? levels : 1;
+    double complex chis[CLI_REFINE_MAX][3][3], chi[3][3], chi_err[3][3];
+    dpz_rhs_report rhs[CLI_REFINE_MAX][3];
     memset(rhs, 0, sizeof rhs);
     dpz_err e;
     dpz_err_clear(&e);
-    cli_progress(a, "static solve: %zu voxels, 3 right-hand sides", j.grid->n_occ);
+    dpz_status s = DPZ_OK;
     double t0 = now_s();
-    dpz_status s = dpz_static_compute(&j.setup, chi, rhs, &e);
+    for (size_t l = 0; l < nl; l++) {
+        j.setup.grid = levels ? ref.grid[l] : j.grid;
+        cli_progress(a, "static solve: %zu voxels, 3 right-hand sides",
+                     j.setup.grid->n_occ);
+        dpz_err el;
+        dpz_err_clear(&el);
+        dpz_status sl = dpz_static_compute(&j.setup, chis[l], rhs[l], &el);
+        if (sl != DPZ_OK && sl != DPZ_ENOCONV) {
+            rc = cli_fail_err("static", &el);
+            cli_refine_free(&ref);
+            job_free(&j);
+            return rc;
+        }
+        if (sl != DPZ_OK && s == DPZ_OK) {
+            s = sl;
+            e = el;
+        }
+    }
     double secs = now_s() - t0;
-    if (s != DPZ_OK && s != DPZ_ENOCONV) {
-        rc = cli_fail_err("static", &e);
+    if (levels)
+        rc = extrapolate_normalized(&ref, &chis[0][0][0], 9, &chi[0][0], &chi_err[0][0]);
+    else
+        memcpy(chi, chis[0], sizeof chi);
+    if (rc != CLI_OK) {
+        cli_refine_free(&ref);
         job_free(&j);
         return rc;
     }
     int ok;
-    double V = dpz_grid_volume(j.grid);
+    double V = levels ? ref.v_true : dpz_grid_volume(j.grid);
+    cJSON *rj = NULL;
+    if (levels)
+        rj = refine_json(&ref);
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
         cJSON_AddItemToObject(o, "chi", cli_json_tensor3(chi));
+        if (levels)
+            cJSON_AddItemToObject(o, "chi_error", error_tensor_json(&chi_err[0][0]));
         double complex n3[3][3];
         for (int r = 0; r < 3; r++)
             for (int c = 0; c < 3; c++)
@@ -208,8 +311,16 @@ static int run_static(const cli_args *a)
         if (lam > 0)
             cJSON_AddNumberToObject(o, "wavelength_m", lam);
         cJSON_AddItemToObject(o, "materials", cli_materials_json(&j.mat, j.grid));
-        cJSON *sol = rhs_json(rhs, 3, &ok);
-        cJSON_AddBoolToObject(sol, "converged", ok && s == DPZ_OK);
+        if (rj) {
+            cJSON *per = cJSON_CreateArray();
+            for (size_t l = 0; l < nl; l++)
+                cJSON_AddItemToArray(per, cli_json_tensor3(chis[l]));
+            cJSON_AddItemToObject(rj, "chi_levels", per);
+            cJSON_AddItemToObject(o, "refine", rj);
+            rj = NULL;
+        }
+        cJSON *sol = rhs_json(rhs[nl - 1], 3, &ok);
+        cJSON_AddBoolToObject(sol, "converged", s == DPZ_OK);
         cJSON *opts = cli_json_setup(&j.setup);
         cJSON_AddItemToObject(sol, "options", opts);
         cJSON_AddNumberToObject(sol, "seconds", secs);
@@ -217,15 +328,28 @@ static int run_static(const cli_args *a)
         rc = cli_json_emit(o);
     } else {
         grid_table(j.grid, j.mat.host_index);
+        for (int l = 1; l < 256; l++)
+            if (j.mat.mat[l])
+                printf("label %d: eps = %.6g%+.6gi  (%s)\n", l,
+                       creal(j.setup.eps_label[l]), cimag(j.setup.eps_label[l]),
+                       j.mat.describe[l]);
+        if (levels)
+            refine_table(&ref);
         double z = TABLE_ZERO * max_abs(&chi[0][0], 9);
         cli_print_tensor3(stdout, "static tensor chi", chi, 1.0, z, "m^3");
-        cli_print_tensor3(stdout, "chi / V", chi, V, z / V, "dimensionless");
-        solver_table(&j.setup, rhs, 3);
+        if (levels)
+            cli_print_tensor3(stdout, "chi error estimate (re, im)", chi_err, 1.0, z,
+                              "m^3");
+        cli_print_tensor3(stdout, levels ? "chi / V (V of the true object)" : "chi / V",
+                          chi, V, z / V, "dimensionless");
+        solver_table(&j.setup, rhs[nl - 1], 3);
     }
-    if (rc == CLI_OK && s == DPZ_ENOCONV) {
+    cJSON_Delete(rj);
+    if (rc == CLI_OK && s != DPZ_OK) {
         cli_fail("static: %s", e.msg[0] ? e.msg : "a solve did not converge");
         rc = CLI_FAILED;
     }
+    cli_refine_free(&ref);
     job_free(&j);
     return rc;
 }
@@ -288,32 +412,78 @@ static const char *energy_verdict(const dpz_tensor *t, double tol, char *buf, si
 static int run_tensor(const cli_args *a)
 {
     job j;
+    cli_refine ref;
+    memset(&ref, 0, sizeof ref);
+    size_t levels = 0;
     int rc = job_prepare(a, &j);
     double lam = 0.0;
     if (rc == CLI_OK)
         rc = cli_opt_length_pos(a, "--wavelength", &lam, 1, NULL);
     if (rc == CLI_OK)
         rc = cli_materials_eval(&j.mat, j.grid, lam, j.setup.eps_label);
+    if (rc == CLI_OK)
+        rc = cli_refine_option(a, &levels);
+    if (rc == CLI_OK && levels)
+        rc = cli_refine_build(a, j.grid, levels, &ref);
     if (rc != CLI_OK) {
         job_free(&j);
         return rc;
     }
-    dpz_tensor *t = calloc(1, sizeof *t);
-    if (!t) {
+    size_t nl = levels ? levels : 1;
+    dpz_tensor *ts = calloc(nl, sizeof *ts);
+    if (!ts) {
+        cli_refine_free(&ref);
         job_free(&j);
         return cli_fail("out of memory"), CLI_FAILED;
     }
+    /* One multipole origin for every level: the user's, else the centroid of the finest
+     * voxel set (the best estimate of the true shape's centroid). */
+    if (levels && !j.setup.has_origin) {
+        dpz_grid_centroid(ref.grid[nl - 1], j.setup.origin_m);
+        j.setup.has_origin = 1;
+    }
     dpz_err e;
     dpz_err_clear(&e);
-    cli_progress(a, "tensor at %.6g m: %zu voxels, 6 right-hand sides", lam,
-                 j.grid->n_occ);
+    dpz_status s = DPZ_OK;
     double t0 = now_s();
-    dpz_status s = dpz_tensor_compute(&j.setup, lam, t, NULL, &e);
-    if (s != DPZ_OK && s != DPZ_ENOCONV) {
-        rc = cli_fail_err("tensor", &e);
-        free(t);
-        job_free(&j);
-        return rc;
+    for (size_t l = 0; l < nl; l++) {
+        j.setup.grid = levels ? ref.grid[l] : j.grid;
+        cli_progress(a, "tensor at %.6g m: %zu voxels, 6 right-hand sides", lam,
+                     j.setup.grid->n_occ);
+        dpz_err el;
+        dpz_err_clear(&el);
+        dpz_status sl = dpz_tensor_compute(&j.setup, lam, &ts[l], NULL, &el);
+        if (sl != DPZ_OK && sl != DPZ_ENOCONV) {
+            rc = cli_fail_err("tensor", &el);
+            free(ts);
+            cli_refine_free(&ref);
+            job_free(&j);
+            return rc;
+        }
+        if (sl != DPZ_OK && s == DPZ_OK) {
+            s = sl;
+            e = el;
+        }
+    }
+    /* Diagnostics, T block and cross sections come from the finest level. */
+    dpz_tensor *t = &ts[nl - 1];
+    double complex A[6][6], A_err[6][6];
+    if (levels) {
+        double complex *vals = calloc(nl * 36, sizeof *vals);
+        if (vals) {
+            for (size_t l = 0; l < nl; l++)
+                memcpy(vals + 36 * l, &ts[l].A[0][0], 36 * sizeof *vals);
+            rc = extrapolate_normalized(&ref, vals, 36, &A[0][0], &A_err[0][0]);
+            free(vals);
+        }
+        if (!vals || rc != CLI_OK) {
+            free(ts);
+            cli_refine_free(&ref);
+            job_free(&j);
+            return vals ? rc : (cli_fail("out of memory"), CLI_FAILED);
+        }
+    } else {
+        memcpy(A, t->A, sizeof A);
     }
     dpz_status sx = DPZ_OK;
     dpz_xsec xs;
@@ -328,13 +498,17 @@ static int run_tensor(const cli_args *a)
         sx = dpz_xsec_compute(&j.setup, lam, khat, e0, t, &xs, &ex);
         if (sx != DPZ_OK && sx != DPZ_ENOCONV) {
             rc = cli_fail_err("tensor --cross-sections", &ex);
-            free(t);
+            free(ts);
+            cli_refine_free(&ref);
             job_free(&j);
             return rc;
         }
     }
     double secs = now_s() - t0;
-    double V = dpz_grid_volume(j.grid);
+    double V = levels ? ref.v_true : dpz_grid_volume(j.grid);
+    cJSON *rj = NULL;
+    if (levels)
+        rj = refine_json(&ref);
     char v1[256], v2[256], v3[256];
     validity_verdict(t->dipole_validity, v1, sizeof v1);
     recip_verdict(t->reciprocity, j.setup.solve.tol, v2, sizeof v2);
@@ -359,11 +533,31 @@ static int run_tensor(const cli_args *a)
             }
         cJSON_AddItemToObject(o, "materials", eps);
         cJSON *al = cJSON_CreateObject();
-        cJSON_AddItemToObject(al, "ee", cli_json_block(t->A, 0, 0));
-        cJSON_AddItemToObject(al, "em", cli_json_block(t->A, 0, 3));
-        cJSON_AddItemToObject(al, "me", cli_json_block(t->A, 3, 0));
-        cJSON_AddItemToObject(al, "mm", cli_json_block(t->A, 3, 3));
+        cJSON_AddItemToObject(al, "ee", cli_json_block(A, 0, 0));
+        cJSON_AddItemToObject(al, "em", cli_json_block(A, 0, 3));
+        cJSON_AddItemToObject(al, "me", cli_json_block(A, 3, 0));
+        cJSON_AddItemToObject(al, "mm", cli_json_block(A, 3, 3));
         cJSON_AddItemToObject(o, "alpha", al);
+        if (levels) {
+            cJSON *er = cJSON_CreateObject();
+            cJSON_AddItemToObject(er, "ee", cli_json_block(A_err, 0, 0));
+            cJSON_AddItemToObject(er, "em", cli_json_block(A_err, 0, 3));
+            cJSON_AddItemToObject(er, "me", cli_json_block(A_err, 3, 0));
+            cJSON_AddItemToObject(er, "mm", cli_json_block(A_err, 3, 3));
+            cJSON_AddItemToObject(o, "error", er);
+            cJSON *per = cJSON_CreateArray();
+            for (size_t l = 0; l < nl; l++) {
+                cJSON *lv = cJSON_CreateObject();
+                cJSON_AddItemToObject(lv, "ee", cli_json_block(ts[l].A, 0, 0));
+                cJSON_AddItemToObject(lv, "em", cli_json_block(ts[l].A, 0, 3));
+                cJSON_AddItemToObject(lv, "me", cli_json_block(ts[l].A, 3, 0));
+                cJSON_AddItemToObject(lv, "mm", cli_json_block(ts[l].A, 3, 3));
+                cJSON_AddItemToArray(per, lv);
+            }
+            cJSON_AddItemToObject(rj, "alpha_levels", per);
+            cJSON_AddItemToObject(o, "refine", rj);
+            rj = NULL;
+        }
         cJSON *tb = cJSON_CreateArray();
         for (int r = 0; r < 6; r++) {
             cJSON *row = cJSON_CreateArray();
@@ -417,20 +611,30 @@ static int run_tensor(const cli_args *a)
                 printf("label %d: eps = %.6g%+.6gi  (%s)\n", l,
                        creal(j.setup.eps_label[l]), cimag(j.setup.eps_label[l]),
                        j.mat.describe[l]);
-        printf("origin: %.6e %.6e %.6e m\n\n", t->origin_m[0], t->origin_m[1],
+        printf("origin: %.6e %.6e %.6e m\n", t->origin_m[0], t->origin_m[1],
                t->origin_m[2]);
+        if (levels)
+            refine_table(&ref);
+        printf("\n");
         static const char *names[4] = {"a_ee", "a_em", "a_me", "a_mm"};
+        double z = TABLE_ZERO * max_abs(&A[0][0], 36);
         for (int b = 0; b < 4; b++) {
-            double complex blk[3][3];
+            double complex blk[3][3], blk_err[3][3];
             int r0 = (b / 2) * 3, c0 = (b % 2) * 3;
             for (int r = 0; r < 3; r++)
-                for (int c = 0; c < 3; c++)
-                    blk[r][c] = t->A[r0 + r][c0 + c];
+                for (int c = 0; c < 3; c++) {
+                    blk[r][c] = A[r0 + r][c0 + c];
+                    blk_err[r][c] = levels ? A_err[r0 + r][c0 + c] : 0.0;
+                }
             char title[64];
             snprintf(title, sizeof title, "%s", names[b]);
-            double z = TABLE_ZERO * max_abs(&t->A[0][0], 36);
             cli_print_tensor3(stdout, title, blk, 1.0, z, "m^3");
-            snprintf(title, sizeof title, "%s / V", names[b]);
+            if (levels) {
+                snprintf(title, sizeof title, "%s error estimate (re, im)", names[b]);
+                cli_print_tensor3(stdout, title, blk_err, 1.0, z, "m^3");
+            }
+            snprintf(title, sizeof title,
+                     levels ? "%s / V (V of the true object)" : "%s / V", names[b]);
             cli_print_tensor3(stdout, title, blk, V, z / V, "dimensionless");
         }
         printf("\ndipole picture: %s\n", v1);
@@ -451,7 +655,9 @@ static int run_tensor(const cli_args *a)
         cli_fail("tensor: cross sections: %s", ex.msg);
         rc = CLI_FAILED;
     }
-    free(t);
+    cJSON_Delete(rj);
+    free(ts);
+    cli_refine_free(&ref);
     job_free(&j);
     return rc;
 }

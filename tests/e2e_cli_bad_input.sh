@@ -108,6 +108,9 @@ check 2 "--solver" - -- static "$tmp/s.vtk" --eps 2.25 --solver foo
 check 2 "between 0 and 1" - -- static "$tmp/s.vtk" --eps 2.25 --tol 2
 check 2 "whole number" - -- static "$tmp/s.vtk" --eps 2.25 --max-iter 1.5
 check 2 "--threads" - -- static "$tmp/s.vtk" --eps 2.25 --threads 0
+check 2 "2 to 4 levels" - -- static "$tmp/s.vtk" --eps 2.25 --refine 1
+check 2 "2 to 4 levels" - -- tensor "$tmp/s.vtk" --eps 2.25 --wavelength 500nm --refine 9
+check 2 "whole number" - -- static "$tmp/s.vtk" --eps 2.25 --refine two
 # --- tensor and expand -------------------------------------------------------------------
 check 2 "--wavelength LEN is required" - -- tensor "$tmp/s.vtk" --eps 2.25
 check 2 "no unit" - -- tensor "$tmp/s.vtk" --eps 2.25 --wavelength 500

@@ -95,6 +95,30 @@ assert d["solver"]["converged"] is True
 run "$bin" static "$tmp/s.vtk" --eps 2.25
 [ "$(rc)" = 0 ] && grep -q 'chi / V' "$tmp/out" && grep -q 'm^3' "$tmp/out" && ok "static table" || bad "static table"
 
+# --refine: three lattices (2, 1.33, 1 nm) of the recorded sphere, extrapolated to zero
+# spacing. The extrapolation must land closer to the Clausius-Mossotti value than the
+# coarsest lattice does, and report an error estimate beside chi.
+run "$bin" shape sphere --radius 6nm --spacing 2nm -o "$tmp/s2.vtk"
+run "$bin" static "$tmp/s2.vtk" --eps 2.25 --refine 3 --json
+[ "$(rc)" = 0 ] && pycheck "static --refine: chi_error, extrapolation beats the coarse lattice" '
+tensor(d["chi_error"])
+r = d["refine"]
+assert r["levels"] == 3 and r["voxels"][0] < r["voxels"][1] < r["voxels"][2], r["voxels"]
+assert r["how"] == "re-voxelized shape" and r["true_volume_from"] == "shape formula"
+assert abs(r["true_volume_m3"] - 4 * math.pi * 6e-9**3 / 3) < 1e-12 * r["true_volume_m3"]
+cm = 3 * (2.25 - 1) / (2.25 + 2)  # Bohren & Huffman 1983, eq. 5.15 (SI volume form)
+coarse = r["chi_levels"][0][0][0][0] / r["volumes_m3"][0]
+ext = d["chi_over_volume"][0][0][0]
+assert abs(ext - cm) < abs(coarse - cm), (ext, coarse, cm)
+assert d["chi_error"][0][0][0] > 0
+' || bad "static --refine"
+run "$bin" tensor "$tmp/s2.vtk" --eps 2.25 --wavelength 200nm --refine 2 --json
+[ "$(rc)" = 0 ] && pycheck "tensor --refine: error beside alpha" '
+for b in ("ee", "em", "me", "mm"):
+    tensor(d["alpha"][b]); tensor(d["error"][b])
+assert len(d["refine"]["alpha_levels"]) == 2
+' || bad "tensor --refine"
+
 # ---- tensor --------------------------------------------------------------------------------
 run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm --json
 [ "$(rc)" = 0 ] && pycheck "tensor: fields, reciprocity, radiative correction" '

@@ -292,8 +292,10 @@ int dpz_cli_main(int argc, char **argv)
                 rc = commands[i]->run(a);
         }
         free(a);
-        if (fflush(stdout) != 0 && rc == CLI_OK)
-            rc = cli_fail("cannot write to standard output");
+        if (fflush(stdout) != 0 && rc == CLI_OK) {
+            cli_fail("cannot write to standard output");
+            rc = CLI_FAILED;
+        }
         return rc;
     }
     for (size_t i = 0; i < N_RAW; i++)

@@ -282,6 +282,7 @@ static int run_static(const cli_args *a)
         }
     }
     double secs = now_s() - t0;
+    cli_progress(a, "static solve finished in %.1f s", secs);
     if (levels)
         rc = extrapolate_normalized(&ref, &chis[0][0][0], 9, &chi[0][0], &chi_err[0][0]);
     else
@@ -505,6 +506,7 @@ static int run_tensor(const cli_args *a)
         }
     }
     double secs = now_s() - t0;
+    cli_progress(a, "tensor finished in %.1f s", secs);
     double V = levels ? ref.v_true : dpz_grid_volume(j.grid);
     cJSON *rj = NULL;
     if (levels)
@@ -708,6 +710,7 @@ static int run_expand(const cli_args *a)
     double t0 = now_s();
     dpz_status s = dpz_expand_compute(&j.setup, x, n, ex, &e);
     double secs = now_s() - t0;
+    cli_progress(a, "size expansion finished in %.1f s", secs);
     if (s != DPZ_OK && s != DPZ_ENOCONV) {
         rc = cli_fail_err("expand", &e);
         free(ex);

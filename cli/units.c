@@ -474,7 +474,7 @@ static dpz_status check_unique(const char *opt, const double *v, size_t n, dpz_e
 {
     if (n < 2)
         return DPZ_OK;
-    double *s = malloc(n * sizeof *s);
+    double *s = dpz__malloc(n * sizeof *s);
     if (!s)
         return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
     memcpy(s, v, n * sizeof *s);
@@ -497,7 +497,7 @@ dpz_status dpz_units_wavelength_text(const char *opt, const char *name, const ch
     if (max_points == 0 || max_points > DPZ_UNITS_MAX_POINTS)
         max_points = DPZ_UNITS_MAX_POINTS;
     size_t cap = 16, count = 0, line = 0;
-    double *v = malloc(cap * sizeof *v);
+    double *v = dpz__malloc(cap * sizeof *v);
     if (!v)
         return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
     size_t pos = 0;
@@ -540,7 +540,7 @@ dpz_status dpz_units_wavelength_text(const char *opt, const char *name, const ch
                                nz(opt), name, max_points);
         }
         if (count == cap) {
-            double *nv = realloc(v, 2 * cap * sizeof *v);
+            double *nv = dpz__realloc(v, 2 * cap * sizeof *v);
             if (!nv) {
                 free(v);
                 return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
@@ -574,7 +574,7 @@ static dpz_status wavelength_file(const char *opt, const char *path, size_t max_
         return dpz_err_set(err, DPZ_EIO, "%s: cannot open wavelength file %s: %s",
                            nz(opt), path, strerror(errno));
     size_t cap = 4096, len = 0;
-    char *buf = malloc(cap);
+    char *buf = dpz__malloc(cap);
     if (!buf) {
         fclose(f);
         return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
@@ -587,7 +587,7 @@ static dpz_status wavelength_file(const char *opt, const char *path, size_t max_
                 return dpz_err_set(err, DPZ_ELIMIT, "%s: %s is larger than 64 MiB",
                                    nz(opt), path);
             }
-            char *nb = realloc(buf, 2 * cap);
+            char *nb = dpz__realloc(buf, 2 * cap);
             if (!nb) {
                 free(buf);
                 fclose(f);
@@ -658,7 +658,7 @@ dpz_status dpz_units_wavelengths(const char *opt, const char *text, size_t max_p
             return dpz_err_set(err, DPZ_ELIMIT,
                                "%s: \"%s\" gives more than %zu wavelengths", nz(opt),
                                text, max_points);
-        double *v = malloc(count * sizeof *v);
+        double *v = dpz__malloc(count * sizeof *v);
         if (!v)
             return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
         for (size_t i = 0; i < count; i++)
@@ -683,7 +683,7 @@ dpz_status dpz_units_wavelengths(const char *opt, const char *text, size_t max_p
     if (cap > max_points)
         return dpz_err_set(err, DPZ_ELIMIT, "%s: more than %zu wavelengths", nz(opt),
                            max_points);
-    double *v = malloc(cap * sizeof *v);
+    double *v = dpz__malloc(cap * sizeof *v);
     if (!v)
         return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
     size_t count = 0;

@@ -312,6 +312,40 @@ static void test_units_wavelength_file(void **state)
                 "cannot open");
 }
 
+static void test_units_alloc_failure(void **state)
+{
+    (void)state;
+    dpz_err e;
+    double *w = NULL;
+    size_t n = 0;
+    /* Every allocation of the wavelength parsers goes through the library hook. */
+    dpz_alloc_fail_after(0);
+    expect_fail(dpz_units_wavelengths("--wavelengths", "400nm:800nm:10nm", 0, &w, &n, &e),
+                &e, "out of memory");
+    assert_int_equal(e.code, DPZ_ENOMEM);
+    dpz_alloc_fail_after(0);
+    expect_fail(dpz_units_wavelengths("--wavelengths", "500nm,600nm", 0, &w, &n, &e), &e,
+                "out of memory");
+    /* The text form grows its array: fail at the first growth (17th value). */
+    char text[512] = "";
+    for (int i = 0; i < 20; i++) {
+        char line[32];
+        snprintf(line, sizeof line, "%dnm\n", 500 + i);
+        strcat(text, line);
+    }
+    dpz_alloc_fail_after(1);
+    expect_fail(dpz_units_wavelength_text("--wavelengths", "w.txt", text, strlen(text), 0,
+                                          &w, &n, &e),
+                &e, "out of memory");
+    dpz_alloc_fail_after(-1);
+    assert_null(w);
+    assert_int_equal(dpz_units_wavelength_text("--wavelengths", "w.txt", text,
+                                               strlen(text), 0, &w, &n, &e),
+                     DPZ_OK);
+    assert_int_equal(n, 20);
+    free(w);
+}
+
 static void test_units_shard(void **state)
 {
     (void)state;
@@ -404,6 +438,7 @@ int main(void)
         cmocka_unit_test(test_units_lists),
         cmocka_unit_test(test_units_wavelength_range),
         cmocka_unit_test(test_units_wavelength_file),
+        cmocka_unit_test(test_units_alloc_failure),
         cmocka_unit_test(test_units_shard),
         cmocka_unit_test(test_units_drude),
         cmocka_unit_test(test_units_material),

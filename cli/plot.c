@@ -811,6 +811,22 @@ static void markers(dpz_svg *s, const dpz_svg_frame *f, const double *x, const d
     }
 }
 
+/* Every non-converged wavelength gets a faint vertical line and a hollow marker on the
+ * wavelength axis, so that it stays visible when its values are missing (NaN rows). */
+static void unconverged_marks(dpz_svg *s, const dpz_svg_frame *f, const double *x,
+                              const int *conv, size_t n)
+{
+    dpz_svg_style line = {"#999999", 1.0, "2 3", NULL, 1.0};
+    dpz_svg_style hollow = {"#555555", 1.5, NULL, "#ffffff", 1.0};
+    for (size_t i = 0; i < n; i++) {
+        if (conv[i])
+            continue;
+        double px = dpz_svg_fx(f, x[i]);
+        dpz_svg_line(s, px, f->py, px, f->py + f->ph, &line);
+        dpz_svg_circle(s, px, f->py + f->ph, 4.0, &hollow);
+    }
+}
+
 static void title_block(dpz_svg *s, const char *title, const char *subtitle)
 {
     dpz_svg_text(s, FX, 22, 15, DPZ_SVG_START, 0, 1, title);
@@ -825,8 +841,8 @@ static double legend_convergence(dpz_svg *s, double y, size_t nbad, size_t n)
     dpz_svg_style st = {"#555555", 1.5, NULL, NULL, 1.0};
     if (nbad > 0) {
         dpz_svg_legend_entry(s, LEGX, y, &st, 0, 2, "not converged");
-        snprintf(t, sizeof t, "(%zu of %zu wavelengths)", nbad, n);
-        dpz_svg_text(s, LEGX + 30, y + 19, 11.5, DPZ_SVG_START, 0, 0, t);
+        snprintf(t, sizeof t, "%zu of %zu wavelengths", nbad, n);
+        dpz_svg_text(s, LEGX, y + 19, 11.5, DPZ_SVG_START, 0, 0, t);
         return y + 40;
     }
     snprintf(t, sizeof t, "all %zu wavelengths", n);
@@ -988,6 +1004,7 @@ static void render_alpha(dpz_svg *s, const dpz_pic_sweep *sw, int r0, int c0,
     unit_label(ylab, sizeof ylab, name, e, "m\u00B3");
     title_block(s, title, note);
     dpz_svg_axes(s, &f, "vacuum wavelength (nm)", ylab);
+    unconverged_marks(s, &f, x, sw->conv, n);
     if (f.y.lo < 0 && f.y.hi > 0) {
         dpz_svg_style zero = {"#888888", 1.0, NULL, NULL, 1.0};
         dpz_svg_line(s, f.px, dpz_svg_fy(&f, 0), f.px + f.pw, dpz_svg_fy(&f, 0), &zero);
@@ -1056,6 +1073,7 @@ static void render_cross(dpz_svg *s, const dpz_pic_sweep *sw)
     title_block(s, "Cross sections",
                 "full solve (solid) beside the point-dipole model (dashed)");
     dpz_svg_axes(s, &f, "vacuum wavelength (nm)", ylab);
+    unconverged_marks(s, &f, x, sw->cs_conv, n);
     static const char *const qn[3] = {"extinction", "absorption", "scattering"};
     for (int q = 0; q < 3; q++) {
         const char *col = dpz_svg_colour((size_t)q);
@@ -1134,6 +1152,7 @@ static void render_validity(dpz_svg *s, const dpz_pic_sweep *sw)
     dpz_svg_style band = {NULL, 0, NULL, DPZ_SVG_VERMILLION, 0.13};
     dpz_svg_rect(s, f.px, yt, f.pw, yb - yt, &band);
     dpz_svg_axes(s, &f, "vacuum wavelength (nm)", "dipole validity (dimensionless)");
+    unconverged_marks(s, &f, x, sw->d_conv, n);
     dpz_svg_style thr = {DPZ_SVG_VERMILLION, 1.5, "4 3", NULL, 1.0};
     dpz_svg_line(s, f.px, yb, f.px + f.pw, yb, &thr);
     dpz_svg_text(s, f.px + f.pw - 6, yb - 6, 11.5, DPZ_SVG_END, 0, 0,
@@ -1286,8 +1305,8 @@ int dpz_cli_plot(int argc, char **argv)
     }
     struct stat dst;
     if (stat(dir, &dst) != 0 || !S_ISDIR(dst.st_mode)) {
-        fprintf(stderr, "dipolize: plot: %s is not a directory (give a sweep directory)\n",
-                dir);
+        fprintf(stderr,
+                "dipolize: plot: %s is not a directory (give a sweep directory)\n", dir);
         return 2;
     }
     dpz_err err;

@@ -487,7 +487,8 @@ static void section_spectra(buf *h, const dpz_pic_sweep *sw)
         "Dipole validity: size of the order-2 and order-3 response relative to order 1. "
         "Above 0.1 (shaded) the point dipole is a doubtful description."};
     P(h, "<h2 id=\"spectra\">Spectra</h2>");
-    P(h, "<p>Hollow markers flag wavelengths whose solves did not converge.</p>");
+    P(h, "<p>Hollow markers and faint vertical lines flag wavelengths whose solves did "
+         "not converge (their values may be missing).</p>");
     for (int k = 0; k < DPZ_PIC_COUNT; k++) {
         if (!dpz__pic_plot_wanted(sw, (dpz_pic_kind)k))
             continue;

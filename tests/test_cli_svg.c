@@ -598,6 +598,42 @@ static void test_svg_sweep_tables_allocation_failure(void **state)
     assert_true(saw_oom && saw_ok);
 }
 
+/* An ee block rotated by 45 degrees about z: [[p, q, 0], [q, p, 0], [0, 0, c]] has the
+ * principal axes (1, 1, 0)/sqrt 2 (value p + q), (1, -1, 0)/sqrt 2 (p - q) and z (by
+ * hand); with off-diagonal elements this large the plot shows principal-axis components
+ * and names the axes. */
+static void test_svg_plot_principal_axes(void **state)
+{
+    (void)state;
+    char buf[8192];
+    size_t pos = (size_t)snprintf(buf, sizeof buf,
+                                  "# synthetic test input\n"
+                                  "wavelength_m,block,row,col,re,im,converged\n");
+    const double p = 2.385e-21, q = 1e-21, c = 0.5e-21;
+    for (int l = 0; l < 3; l++)
+        for (int r = 0; r < 3; r++)
+            for (int k = 0; k < 3; k++) {
+                double re = r == 2 || k == 2 ? (r == k ? c : 0.0) : (r == k ? p : q);
+                re *= 1.0 + 0.1 * l;
+                pos += (size_t)snprintf(buf + pos, sizeof buf - pos,
+                                        "%.17g,ee,%d,%d,%.17g,%.17g,1\n", 7e-7 + 1e-7 * l,
+                                        r, k, re, r == k ? 1e-22 : 0.0);
+            }
+    write_text("alpha.csv", buf);
+    dpz_pic_sweep sw;
+    dpz_err err;
+    assert_int_equal(dpz__pic_sweep_load(sweep_dir, &sw, &err), DPZ_OK);
+    dpz_svg s;
+    dpz_svg_init(&s, NULL);
+    dpz__pic_plot_render(&s, &sw, DPZ_PIC_ALPHA_EE, 1);
+    assert_well_formed(s.buf);
+    assert_non_null(strstr(s.buf, "principal axes"));
+    assert_non_null(strstr(s.buf, "u1 (0.71, 0.71, 0.00)"));
+    assert_non_null(strstr(s.buf, "u3 (0.00, 0.00, 1.00)"));
+    dpz_svg_free(&s);
+    dpz__pic_sweep_free(&sw);
+}
+
 /* ---- voxel preview
  * ------------------------------------------------------------------------ */
 
@@ -652,6 +688,8 @@ int main(void)
                                         sweep_teardown),
         cmocka_unit_test_setup_teardown(test_svg_sweep_tables_allocation_failure,
                                         sweep_setup, sweep_teardown),
+        cmocka_unit_test_setup_teardown(test_svg_plot_principal_axes, sweep_setup,
+                                        sweep_teardown),
         cmocka_unit_test(test_svg_preview_well_formed),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -158,19 +158,70 @@ int cli_flag(const cli_args *a, const char *name)
     return cli_count(a, name) > 0;
 }
 
+/* Help text width: fits an 80-column terminal. */
+#define HELP_WIDTH 79
+#define HELP_INDENT 29
+
+/* Prints `text` word-wrapped: the first line continues at column `col`, the others start
+ * at column `indent`; existing line breaks are kept. */
+static void wrap_print(FILE *f, const char *text, size_t col, size_t indent)
+{
+    const char *p = text;
+    size_t pending = 0; /* blanks typed before the next word, kept unless we wrap */
+    while (*p) {
+        if (*p == '\n') {
+            fputc('\n', f);
+            for (size_t i = 0; i < indent; i++)
+                fputc(' ', f);
+            col = indent;
+            pending = 0;
+            p++;
+            continue;
+        }
+        if (*p == ' ') {
+            pending++;
+            p++;
+            continue;
+        }
+        size_t wl = strcspn(p, " \n");
+        if (col > indent && col + pending + wl > HELP_WIDTH) {
+            fputc('\n', f);
+            for (size_t i = 0; i < indent; i++)
+                fputc(' ', f);
+            col = indent;
+            pending = 0;
+        }
+        for (; pending > 0; pending--, col++)
+            fputc(' ', f);
+        fwrite(p, 1, wl, f);
+        col += wl;
+        p += wl;
+    }
+    fputc('\n', f);
+}
+
 void cli_print_help(const cli_cmd *cmd, FILE *f)
 {
-    fprintf(f, "Usage: dipolize %s %s\n\n%s\n", cmd->name, cmd->usage, cmd->summary);
-    if (cmd->details)
-        fprintf(f, "\n%s\n", cmd->details);
+    fprintf(f, "Usage: dipolize %s ", cmd->name);
+    wrap_print(f, cmd->usage, 16 + strlen(cmd->name), 8);
+    fputc('\n', f);
+    wrap_print(f, cmd->summary, 0, 0);
+    if (cmd->details) {
+        fputc('\n', f);
+        wrap_print(f, cmd->details, 0, 0);
+    }
     for (size_t g = 0; g < CLI_MAX_GROUPS && cmd->groups[g]; g++) {
         const cli_group *grp = cmd->groups[g];
         fprintf(f, "\n%s:\n", grp->title);
         for (const cli_opt *o = grp->opts; o->name; o++) {
-            char head[64];
+            char head[64], text[1024];
             snprintf(head, sizeof head, "%s%s%s", o->name, o->meta ? " " : "",
                      o->meta ? o->meta : "");
-            fprintf(f, "  %-26s %s%s\n", head, o->help, o->repeat ? " (repeatable)" : "");
+            snprintf(text, sizeof text, "%s%s", o->help,
+                     o->repeat ? " (repeatable)" : "");
+            fprintf(f, "  %-26s ", head);
+            size_t col = 2 + (strlen(head) > 26 ? strlen(head) : 26) + 1;
+            wrap_print(f, text, col, HELP_INDENT);
         }
     }
     fprintf(f, "  %-26s %s\n", "--help", "this text");

@@ -773,16 +773,17 @@ static int run_expand(const cli_args *a)
 }
 
 #define MATERIALS_DETAILS                                                                \
-    "MATERIALS: --eps SPEC for every label, or --material LABEL=SPEC per label. SPEC "   \
-    "is "                                                                                \
-    "a complex permittivity\n(relative to vacuum: 2.25, -10+1i, 12.25-0.02i; absorbing " \
-    "materials have Im > 0 under exp(-i omega t)),\nnk:FILE.csv (columns wavelength_nm|" \
-    "wavelength_um|wavelength_m and n,k or eps_re,eps_im), or\n"                         \
-    "drude:eps_inf=X,wp=E,gamma=E[,lorentz=F:E0:G ...] with energies in eV, e.g.\n"      \
-    "drude:eps_inf=9.5,wp=8.9eV,gamma=0.07eV,lorentz=1.2:2.9eV:0.6eV (Drude-Lorentz "    \
-    "model "                                                                             \
-    "of Rakic et al. 1998).\nThe permittivities are divided by the host's n^2 "          \
-    "internally."
+    "\nMATERIALS: --eps SPEC for every label, or --material LABEL=SPEC per label. SPEC " \
+    "is a complex permittivity relative to vacuum (2.25, -10+1i, 12.25+0.02i; "          \
+    "absorbing "                                                                         \
+    "materials have Im > 0 under exp(-i omega t)), nk:FILE.csv (columns wavelength_nm, " \
+    "wavelength_um or wavelength_m, then n,k or eps_re,eps_im), or "                     \
+    "drude:eps_inf=X,wp=E,gamma=E[,lorentz=F:E0:G...] with energies in eV, for example " \
+    "drude:eps_inf=9.5,wp=8.9eV,gamma=0.07eV,lorentz=1.2:2.9eV:0.6eV (the "              \
+    "Drude-Lorentz "                                                                     \
+    "model of Rakic et al., Appl. Opt. 37, 5271 (1998)). The permittivities are "        \
+    "divided "                                                                           \
+    "by the host's n^2 internally."
 
 const cli_cmd cli_cmd_static = {
     .name = "static",
@@ -802,8 +803,8 @@ const cli_cmd cli_cmd_tensor = {
     .usage = "FILE MATERIALS --wavelength LEN [--origin X,Y,Z] [--json] [options]",
     .summary = "6x6 electric/magnetic/magneto-electric polarizability at one wavelength",
     .details =
-        "Output: a_ee, a_em, a_me, a_mm (m^3; p/(eps0 eps_h) = a_ee E + a_em Z_h H,\n"
-        "Z_h m = a_me E + a_mm Z_h H), the order-1 T block and diagnostics\n"
+        "Output: a_ee, a_em, a_me, a_mm (m^3; p/(eps0 eps_h) = a_ee E + a_em Z_h H, "
+        "Z_h m = a_me E + a_mm Z_h H), the order-1 T block and diagnostics "
         "(reciprocity, energy balance, dipole validity) with plain-words "
         "verdicts.\n" MATERIALS_DETAILS,
     .example =
@@ -822,8 +823,8 @@ const cli_cmd cli_cmd_expand = {
     .summary = "size expansion V a_ee^-1(x) = C0 + C2 x^2 + C3 x^3 + C4 x^4, x = k a_eq",
     .details =
         "The permittivities stay fixed while the size parameter varies. C3 should "
-        "come out as\n-(2i/9) I for any shape (radiative_check measures the "
-        "departure). C2 is convention-\ndependent (see c2_caution).\n" MATERIALS_DETAILS,
+        "come out as -(2i/9) I for any shape (radiative_check measures the "
+        "departure). C2 is convention-dependent (see c2_caution).\n" MATERIALS_DETAILS,
     .example = "dipolize expand sphere.vtk --eps 2.25 --size-parameters "
                "0.05,0.1,0.15,0.2,0.25,0.3 --json",
     .min_pos = 1,

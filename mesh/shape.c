@@ -189,57 +189,67 @@ static void euler_matrix(const double e[3], double R[3][3])
 }
 
 /* Squared distance from body point (x, y, z) to the helix centre line, restricted to the
- * parameter window where the axial distance alone can be below the wire radius. The
- * function of t is smooth; it is sampled every 0.1 rad (much finer than the 2 pi period
- * of its competing minima) and the best sample's bracket is refined by golden-section
- * search (Press et al., Numerical Recipes, 3rd ed. 2007, sec. 10.2). */
-static double helix_dist2(const dpz_shape *s, double x, double y, double z)
+ * parameter window where the axial distance alone is at most `reach` (HUGE_VAL when that
+ * window misses the line; pass the wire radius to decide membership).
+ * With rho, phi the cylindrical coordinates of the point and h(t) its axial offset, the
+ * squared distance to the line point at parameter t is
+ *     f(t) = rho^2 + R^2 - 2 rho R cos(t - phi) + (zz - c t)^2,  c = pitch / (2 pi),
+ * with f''(t) = 2 rho R cos(t - phi) + 2 c^2. f is convex on the intervals
+ * |t - phi - 2 pi k| <= a, a = acos(-c^2 / (rho R)) (all t when c^2 >= rho R), and
+ * concave between them, so its minimum over the window is either the single stationary
+ * point of f in one of these convex intervals (found by safeguarded Newton iteration on
+ * f', which is monotone there; Press et al., Numerical Recipes, 3rd ed. 2007, sec. 9.4)
+ * or an end point of an interval or of the window: all of these are compared. */
+static double helix_dist2(const dpz_shape *s, double x, double y, double z, double reach)
 {
     const double two_pi = 2.0 * DPZ_PI;
     double rc = s->coil_radius, p = s->pitch;
     double rho = hypot(x, y);
     double phi = atan2(y, x);
     double zz = z + 0.5 * p * s->turns; /* axial position from the start of the line */
-    double t0 = two_pi * zz / p, dt = two_pi * s->wire_radius / p;
+    double t0 = two_pi * zz / p, dt = two_pi * reach / p;
     double lo = fmax(0.0, t0 - dt), hi = fmin(two_pi * s->turns, t0 + dt);
     if (lo > hi)
         return HUGE_VAL;
     double c1 = rho * rho + rc * rc, c2 = 2.0 * rho * rc, c3 = p / two_pi;
 #define HELIX_F(t) (c1 - c2 * cos((t)-phi) + (zz - c3 * (t)) * (zz - c3 * (t)))
-    int m = (int)ceil((hi - lo) / 0.1);
-    if (m < 4)
-        m = 4;
-    double h = (hi - lo) / m, best = HUGE_VAL;
-    int ib = 0;
-    for (int i = 0; i <= m; i++) {
-        double t = lo + h * i, f = HELIX_F(t);
-        if (f < best) {
-            best = f;
-            ib = i;
+#define HELIX_D(t) (c2 * sin((t)-phi) - 2.0 * c3 * (zz - c3 * (t)))
+    double best = fmin(HELIX_F(lo), HELIX_F(hi));
+    double ratio = c2 > 0.0 ? 2.0 * c3 * c3 / c2 : HUGE_VAL;
+    double a = ratio >= 1.0 ? DPZ_PI : acos(-ratio);
+    double k0 = floor((lo - phi - a) / two_pi), k1 = ceil((hi - phi + a) / two_pi);
+    for (double k = k0; k <= k1; k += 1.0) {
+        double A = fmax(lo, phi + two_pi * k - a), B = fmin(hi, phi + two_pi * k + a);
+        if (A > B)
+            continue;
+        best = fmin(best, fmin(HELIX_F(A), HELIX_F(B)));
+        double dA = HELIX_D(A), dB = HELIX_D(B);
+        if (!(dA < 0.0 && dB > 0.0))
+            continue; /* f is monotone on [A, B]: its minimum is an end point */
+        /* f' increases on [A, B]: Newton steps kept inside a shrinking bracket. */
+        double t = 0.5 * (A + B);
+        for (int it = 0; it < 60; it++) {
+            double d1 = HELIX_D(t);
+            if (d1 < 0.0)
+                A = t;
+            else
+                B = t;
+            double d2 = c2 * cos(t - phi) + 2.0 * c3 * c3;
+            double tn = d2 > 0.0 ? t - d1 / d2 : 0.5 * (A + B);
+            if (!(tn > A && tn < B))
+                tn = 0.5 * (A + B);
+            if (fabs(tn - t) <= 1e-15 * (1.0 + fabs(t)) ||
+                B - A <= 1e-15 * (1.0 + fabs(t))) {
+                t = tn;
+                break;
+            }
+            t = tn;
         }
-    }
-    double a = lo + h * (ib > 0 ? ib - 1 : 0), b = lo + h * (ib < m ? ib + 1 : m);
-    const double gr = 0.6180339887498949; /* (sqrt(5) - 1) / 2 */
-    double u = b - gr * (b - a), v = a + gr * (b - a);
-    double fu = HELIX_F(u), fv = HELIX_F(v);
-    for (int it = 0; it < 48; it++) {
-        if (fu < fv) {
-            b = v;
-            v = u;
-            fv = fu;
-            u = b - gr * (b - a);
-            fu = HELIX_F(u);
-        } else {
-            a = u;
-            u = v;
-            fu = fv;
-            v = a + gr * (b - a);
-            fv = HELIX_F(v);
-        }
+        best = fmin(best, HELIX_F(t));
     }
 #undef HELIX_F
-    double f = fmin(fu, fv);
-    return fmax(0.0, fmin(f, best));
+#undef HELIX_D
+    return fmax(0.0, best);
 }
 
 /* Label of a body-frame point. */
@@ -283,7 +293,7 @@ static int body_label(const dpz_shape *s, const double b[3])
         double rho = hypot(x, yy);
         if (fabs(rho - s->coil_radius) > w || fabs(z) > 0.5 * s->pitch * s->turns + w)
             return 0;
-        return helix_dist2(s, x, yy, z) <= w * w ? L : 0;
+        return helix_dist2(s, x, yy, z, w) <= w * w ? L : 0;
     }
     case DPZ_SHAPE_CROSS: {
         if (fabs(z) > 0.5 * s->thickness)
@@ -307,6 +317,97 @@ static int body_label(const dpz_shape *s, const double b[3])
     }
     default:
         return 0;
+    }
+}
+
+/* Outside distance to the axis-aligned box of half-extents h, or minus the inside margin
+ * (the distance to the nearest face) for a point inside: a signed distance. */
+static double box_sdist(const double p[3], const double h[3])
+{
+    double out2 = 0.0, in = HUGE_VAL;
+    for (int a = 0; a < 3; a++) {
+        double e = fabs(p[a]) - h[a];
+        if (e > 0.0)
+            out2 += e * e;
+        in = fmin(in, -e);
+    }
+    return out2 > 0.0 ? sqrt(out2) : -in;
+}
+
+/* A radius L >= 0 such that every point within L of the body point b has the label of b
+ * (a lower bound on the distance to the shape's boundary; 0 when unknown). `margin` is
+ * the radius the caller will test against, needed by the helix search window. Used to
+ * skip sub-sampling of voxels that are wholly inside or outside. Distances of boxes,
+ * cylinders, rings and spheres are exact; the ellipsoid uses the Lipschitz bound of
+ * r -> (x/a, y/b, z/c), whose constant is 1/min(a, b, c). */
+static double body_margin(const dpz_shape *s, const double b[3], double margin)
+{
+    double x = b[0], y = b[1], z = b[2];
+    switch (s->kind) {
+    case DPZ_SHAPE_SPHERE:
+        return fabs(sqrt(x * x + y * y + z * z) - s->radius);
+    case DPZ_SHAPE_CORE_SHELL: {
+        double r = sqrt(x * x + y * y + z * z);
+        return fmin(fabs(r - s->radius), fabs(r - s->radius - s->shell));
+    }
+    case DPZ_SHAPE_ELLIPSOID: {
+        double u = x / s->semi[0], v = y / s->semi[1], w = z / s->semi[2];
+        double amin = fmin(s->semi[0], fmin(s->semi[1], s->semi[2]));
+        return fabs(sqrt(u * u + v * v + w * w) - 1.0) * amin;
+    }
+    case DPZ_SHAPE_BOX: {
+        double h[3] = {0.5 * s->size[0], 0.5 * s->size[1], 0.5 * s->size[2]};
+        return fabs(box_sdist(b, h));
+    }
+    case DPZ_SHAPE_CYLINDER: {
+        double along = b[s->axis];
+        double rho = hypot(b[(s->axis + 1) % 3], b[(s->axis + 2) % 3]);
+        double er = rho - s->radius, ea = fabs(along) - 0.5 * s->height;
+        if (er <= 0.0 && ea <= 0.0)
+            return fmin(-er, -ea);
+        return hypot(fmax(er, 0.0), fmax(ea, 0.0));
+    }
+    case DPZ_SHAPE_RING:
+    case DPZ_SHAPE_SPLIT_RING: {
+        double rho = hypot(x, y);
+        double er = fmax(s->inner - rho, rho - s->outer),
+               ez = fabs(z) - 0.5 * s->thickness;
+        double L =
+            er <= 0.0 && ez <= 0.0 ? fmin(-er, -ez) : hypot(fmax(er, 0.0), fmax(ez, 0.0));
+        if (s->kind ==
+            DPZ_SHAPE_SPLIT_RING) /* the slot changes only across these planes */
+            L = fmin(L, fmin(fabs(fabs(y) - 0.5 * s->gap), fabs(x)));
+        return L;
+    }
+    case DPZ_SHAPE_CROSS: {
+        double ha[3] = {0.5 * s->arm_length, 0.5 * s->arm_width, 0.5 * s->thickness};
+        double hb[3] = {0.5 * s->arm_width, 0.5 * s->arm_length, 0.5 * s->thickness};
+        double da = box_sdist(b, ha), db = box_sdist(b, hb);
+        if (da <= 0.0 || db <= 0.0) /* inside the union: the deeper bar's margin */
+            return fmax(da <= 0.0 ? -da : 0.0, db <= 0.0 ? -db : 0.0);
+        return fmin(da, db);
+    }
+    case DPZ_SHAPE_DIMER: {
+        double dx = fabs(x) - (s->radius + 0.5 * s->gap);
+        return fabs(sqrt(dx * dx + y * y + z * z) - s->radius);
+    }
+    case DPZ_SHAPE_HELIX: {
+        double w = s->wire_radius;
+        double yy = s->left ? -y : y;
+        /* The tube lies within the annulus |rho - R| <= w and the slab |z| <= pN/2 + w.
+         */
+        double shell = fmax(fabs(hypot(x, yy) - s->coil_radius) - w,
+                            fabs(z) - 0.5 * s->pitch * s->turns - w);
+        if (shell > margin)
+            return shell;
+        /* Centre-line distance over the window of axial distance <= w + 2 margin; points
+         * of the line outside the window are farther than w + 2 margin. */
+        double reach = w + 2.0 * margin;
+        double dist = sqrt(helix_dist2(s, x, yy, z, reach));
+        return dist <= w ? w - dist : fmin(dist, reach) - w;
+    }
+    default:
+        return 0.0;
     }
 }
 
@@ -531,6 +632,7 @@ dpz_status dpz_shape_voxelize(dpz_grid **out, const dpz_shape *s, double d_m,
     for (int q = 0; q < S; q++)
         off[q] = fractions ? ((q + 0.5) / S - 0.5) * d_m : 0.0;
     const double inv_samples = 1.0 / ((double)S * S * S);
+    const double half_diag = 0.5 * sqrt(3.0) * d_m; /* every sample lies within it */
     size_t idx = 0;
     for (size_t i = 0; i < n[0]; i++) {
         double x = g->origin[0] + d_m * (double)i;
@@ -543,6 +645,17 @@ dpz_status dpz_shape_voxelize(dpz_grid **out, const dpz_shape *s, double d_m,
                     to_body(R, r, b);
                     g->label[idx] = (uint8_t)body_label(s, b);
                     continue;
+                }
+                /* A voxel whose circumscribed ball has one label needs no samples. */
+                {
+                    double r[3] = {x, y, z}, b[3];
+                    to_body(R, r, b);
+                    if (body_margin(s, b, half_diag) > half_diag * (1.0 + 1e-9)) {
+                        int L = body_label(s, b);
+                        g->label[idx] = (uint8_t)L;
+                        g->fill[idx] = L ? 1.0f : 0.0f;
+                        continue;
+                    }
                 }
                 /* Counts of the shape's own label and of label + 1 (core-shell shell). */
                 long c0 = 0, c1 = 0;

@@ -642,6 +642,68 @@ static void test_shape_voxelize_errors(void **state)
     }
 }
 
+/* The fill fractions skip sub-sampling where a distance bound shows that a voxel is
+ * wholly inside or outside; the result must equal plain sub-sampling of every voxel, here
+ * done with dpz_shape_label_at at the same sample points, for every kind, rotated. */
+static void test_shape_fractions_equal_brute_force(void **state)
+{
+    (void)state;
+    dpz_shape s[DPZ_SHAPE_KIND_COUNT];
+    for (int k = 0; k < DPZ_SHAPE_KIND_COUNT; k++) {
+        dpz_shape *p = &s[k];
+        dpz_shape_init(p, (dpz_shape_kind)k);
+        p->radius = 6.1 * NM, p->semi[0] = 9.3 * NM, p->semi[1] = 5.2 * NM;
+        p->semi[2] = 3.7 * NM, p->size[0] = 11.3 * NM, p->size[1] = 6.9 * NM;
+        p->size[2] = 4.4 * NM, p->height = 9.9 * NM, p->axis = 0, p->outer = 9.1 * NM;
+        p->inner = 5.3 * NM, p->thickness = 3.1 * NM, p->gap = 2.7 * NM;
+        p->coil_radius = 7.2 * NM, p->wire_radius = 1.9 * NM, p->pitch = 6.6 * NM;
+        p->turns = 1.75, p->arm_length = 17.3 * NM, p->arm_width = 3.9 * NM;
+        p->shell = 2.2 * NM;
+        p->euler[0] = 0.31, p->euler[1] = 0.87, p->euler[2] = -1.21;
+    }
+    const double d = 0.97 * NM;
+    const int S = 3;
+    for (int k = 0; k < DPZ_SHAPE_KIND_COUNT; k++) {
+        dpz_grid *g = NULL;
+        dpz_err err;
+        assert_int_equal(dpz_shape_voxelize(&g, &s[k], d, 1, S, 0, &err), DPZ_OK);
+        size_t idx = 0, partial = 0;
+        for (size_t i = 0; i < g->nx; i++)
+            for (size_t j = 0; j < g->ny; j++)
+                for (size_t kk = 0; kk < g->nz; kk++, idx++) {
+                    double c[3] = {g->origin[0] + d * (double)i,
+                                   g->origin[1] + d * (double)j,
+                                   g->origin[2] + d * (double)kk};
+                    int n0 = 0, n1 = 0;
+                    for (int a = 0; a < S; a++)
+                        for (int b = 0; b < S; b++)
+                            for (int e = 0; e < S; e++) {
+                                double r[3] = {c[0] + ((a + 0.5) / S - 0.5) * d,
+                                               c[1] + ((b + 0.5) / S - 0.5) * d,
+                                               c[2] + ((e + 0.5) / S - 0.5) * d};
+                                int L = dpz_shape_label_at(&s[k], r);
+                                n0 += L == s[k].label;
+                                n1 += L == s[k].label + 1;
+                            }
+                    float want = (float)((double)(n0 + n1) / (S * S * S));
+                    int want_label = n0 + n1 == 0 ? 0
+                                     : n1 > n0    ? s[k].label + 1
+                                                  : s[k].label;
+                    if (g->fill[idx] != want || g->label[idx] != want_label)
+                        print_error(
+                            "%s voxel %zu,%zu,%zu: fill %g label %d, brute force %g "
+                            "label %d\n",
+                            dpz_shape_kind_name(s[k].kind), i, j, kk, g->fill[idx],
+                            g->label[idx], want, want_label);
+                    assert_true(g->fill[idx] == want);
+                    assert_int_equal(g->label[idx], want_label);
+                    partial += want > 0.0f && want < 1.0f;
+                }
+        assert_true(partial > 0);
+        dpz_grid_destroy(g);
+    }
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -654,6 +716,7 @@ int main(void)
         cmocka_unit_test(test_shape_euler_rotations),
         cmocka_unit_test(test_shape_core_shell_labels),
         cmocka_unit_test(test_shape_fill_fractions),
+        cmocka_unit_test(test_shape_fractions_equal_brute_force),
         cmocka_unit_test(test_shape_record_round_trip),
         cmocka_unit_test(test_shape_record_rejects_malformed),
         cmocka_unit_test(test_shape_validation),

@@ -365,7 +365,25 @@ static void remove_restart(const char *dir)
     }
 }
 
-/* -1: absent, 0: empty directory, 1: has entries, 2: not a directory. */
+/* Leftovers of atomic writes interrupted by a kill: ".NAME.tmpXXXXXX". */
+static int is_temp_name(const char *name)
+{
+    return name[0] == '.' && strstr(name, ".tmp") != NULL;
+}
+
+/* Files a sweep writes while it sets up, before summary.json exists. */
+static int is_setup_name(const char *name)
+{
+    static const char *const names[] = {"alpha.csv", "cross_sections.csv",
+                                        "diagnostics.csv", "static.json"};
+    for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
+        if (strcmp(name, names[i]) == 0)
+            return 1;
+    return is_temp_name(name);
+}
+
+/* -1: absent, 0: empty directory, 1: has entries, 2: not a directory, 3: holds only
+ * what a sweep killed during its set-up leaves (no summary.json yet). */
 static int dir_state(const char *path)
 {
     struct stat sb;
@@ -376,13 +394,30 @@ static int dir_state(const char *path)
     DIR *d = opendir(path);
     if (!d)
         return 1;
-    int n = 0;
+    int n = 0, setup_only = 1;
     struct dirent *e;
     while ((e = readdir(d)) != NULL)
-        if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0)
+        if (strcmp(e->d_name, ".") != 0 && strcmp(e->d_name, "..") != 0) {
             n++;
+            setup_only = setup_only && is_setup_name(e->d_name);
+        }
     closedir(d);
-    return n > 0;
+    return n == 0 ? 0 : setup_only ? 3 : 1;
+}
+
+static void remove_temp_files(const char *dir)
+{
+    DIR *d = opendir(dir);
+    if (!d)
+        return;
+    struct dirent *e;
+    char path[4096];
+    while ((e = readdir(d)) != NULL)
+        if (is_temp_name(e->d_name)) {
+            snprintf(path, sizeof path, "%s/%s", dir, e->d_name);
+            unlink(path);
+        }
+    closedir(d);
 }
 
 static int open_tables(dpz__sweep_out *o)
@@ -843,7 +878,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     int resume = cli_flag(a, "--resume") && state == 1;
     if (state == 2)
         rc = cli_fail("sweep: -o %s exists and is not a directory", o.dir);
-    else if (state == 1 && !cli_flag(a, "--resume"))
+    else if ((state == 1 || state == 3) && !cli_flag(a, "--resume"))
         rc =
             cli_fail("sweep: %s is not empty (continue an interrupted run with --resume, "
                      "or choose another directory)",
@@ -851,8 +886,11 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     else if (resume)
         rc = resume_dir(c, &o, fresh);
     free(fresh);
+    if (rc == CLI_OK && state >= 0)
+        remove_temp_files(o.dir);
+    /* --resume of a run killed before its summary.json existed starts it afresh. */
     if (rc == CLI_OK && !resume)
-        rc = create_dir(c, &o, state == 0);
+        rc = create_dir(c, &o, state >= 0);
     if (rc == CLI_OK)
         rc = open_tables(&o);
     dpz__mpi_bcast(rc);

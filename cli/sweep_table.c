@@ -82,13 +82,29 @@ typedef struct sbuf {
     int overflow;
 } sbuf;
 
+/* The shortest of %.15g, %.16g, %.17g that reads back as the same double: exact round
+ * trip, and 2e-07 rather than 1.9999999999999999e-07 where the value allows it. */
+static int format_exact(char *buf, size_t cap, double v)
+{
+    int n = 0;
+    for (int prec = 15; prec <= 17; prec++) {
+        n = snprintf(buf, cap, "%.*g", prec, v);
+        if (n < 0 || (size_t)n >= cap || strtod(buf, NULL) == v)
+            break;
+    }
+    return n;
+}
+
 static void sb_num(sbuf *s, double v, int available, const char *sep)
 {
     if (s->overflow)
         return;
-    int n = (available && isfinite(v))
-                ? snprintf(s->p + s->pos, s->cap - s->pos, "%.17g%s", v, sep)
-                : snprintf(s->p + s->pos, s->cap - s->pos, "nan%s", sep);
+    char num[40];
+    if (available && isfinite(v))
+        format_exact(num, sizeof num, v);
+    else
+        snprintf(num, sizeof num, "nan");
+    int n = snprintf(s->p + s->pos, s->cap - s->pos, "%s%s", num, sep);
     if (n < 0 || (size_t)n >= s->cap - s->pos) {
         s->overflow = 1;
         return;

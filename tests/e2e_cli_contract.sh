@@ -47,7 +47,7 @@ for c in shape info static tensor expand; do
 done
 run "$bin" tensor --help
 flat=$(tr '\n' ' ' <"$tmp/out" | tr -s ' ')
-grep -q -- '--wavelength LEN' "$tmp/out" && case "$flat" in *"(default 1e-8)"*"(default cm-rr)"*) true ;; *) false ;; esac && ok "tensor --help: units and defaults" || bad "tensor --help: units and defaults"
+grep -q -- '--wavelength LEN' "$tmp/out" && case "$flat" in *"(default cm-rr)"*"(default 1e-8)"*) true ;; *) false ;; esac && ok "tensor --help: units and defaults" || bad "tensor --help: units and defaults"
 
 # ---- shape -> info -------------------------------------------------------------------------
 # Sphere of radius 6 nm at 1 nm: 12 dipoles per diameter.

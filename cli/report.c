@@ -25,6 +25,7 @@
 #define RP_RECIPROCITY_OK 1e-6 /* relative; well above round-off of a converged solve */
 #define RP_NEG_EIG_TOL 1e-6    /* relative to the largest |eigenvalue| scale used */
 #define RP_RADIATIVE_OK 0.05   /* |C3 + 2i/9 I| / (2/9) */
+#define RP_EXT_AGREE 0.05      /* point-dipole extinction within 5 % of the full solve */
 
 #ifndef DPZ_VERSION
 #define DPZ_VERSION "unknown"
@@ -676,10 +677,19 @@ static void verdicts(buf *h, const dpz_pic_sweep *sw, int detailed)
     }
     if (sw->ncs > 0 && sw->cs_rel) {
         size_t k = argmax(sw->cs_rel, sw->ncs);
-        if (k != none)
+        if (k != none && sw->cs_rel[k] <= RP_EXT_AGREE)
             P(h,
-              "<li>The point-dipole tensor reproduces the extinction of the full solve "
-              "within %.3g %% at every wavelength (largest difference at %.5g nm).</li>",
+              "<li class=\"ok\">The point-dipole tensor reproduces the extinction of the "
+              "full solve within %.3g %% at every wavelength (largest difference at %.5g "
+              "nm).</li>",
+              100 * sw->cs_rel[k], nm(sw->cs_lambda_m[k]));
+        else if (k != none)
+            P(h,
+              "<li><span class=\"warn\">The point-dipole extinction differs from the "
+              "full "
+              "solve by up to %.3g %%</span> (at %.5g nm): there the dipole tensor "
+              "misses "
+              "part of the particle's response to a plane wave.</li>",
               100 * sw->cs_rel[k], nm(sw->cs_lambda_m[k]));
     }
     if (detailed && sw->nd > 0) {

@@ -23,9 +23,9 @@
 /* Plain-words thresholds (presentation choices, stated on the page). */
 #define RP_VALIDITY_WARN 0.1   /* same level as the plot's warning band */
 #define RP_RECIPROCITY_OK 1e-6 /* relative; well above round-off of a converged solve */
-#define RP_NEG_EIG_TOL 1e-6    /* relative to the largest |eigenvalue| scale used */
-#define RP_RADIATIVE_OK 0.05   /* |C3 + 2i/9 I| / (2/9) */
-#define RP_EXT_AGREE 0.05      /* point-dipole extinction within 5 % of the full solve */
+#define RP_NEG_EIG_TOL 1e-6  /* absolute: the absorption matrix is dimensionless, O(1) */
+#define RP_RADIATIVE_OK 0.05 /* |C3 + 2i/9 I| / (2/9) */
+#define RP_EXT_AGREE 0.05    /* point-dipole extinction within 5 % of the full solve */
 
 #ifndef DPZ_VERSION
 #define DPZ_VERSION "unknown"

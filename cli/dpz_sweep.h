@@ -31,6 +31,11 @@ size_t dpz_sweep_shard_size(size_t n_total, size_t index, size_t count);
 /* The j-th position (0-based) of shard `index`: index + j * count. */
 size_t dpz_sweep_shard_position(size_t j, size_t index, size_t count);
 
+/* Whether two wavelengths are the same up to the rounding of a JSON writer: within
+ * 4 DBL_EPSILON relative. The tables hold exact values; summary.json's numbers may be
+ * printed by cJSON with 15 digits when they agree to its own epsilon. */
+int dpz_sweep_same_wavelength(double a, double b);
+
 /* ---- the result of one wavelength ---------------------------------------------------
  */
 /* Plain data (no pointers) so that MPI workers can send it to rank 0 as bytes. */

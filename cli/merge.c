@@ -96,7 +96,7 @@ static dpz_status shard_load(shard_in *s, dpz_err *err)
                                    "%s/summary.json: result %zu lacks wavelength_m or "
                                    "converged",
                                    s->dir, j + 1);
-            if (w->valuedouble != tb->groups[j].lambda0_m ||
+            if (!dpz_sweep_same_wavelength(w->valuedouble, tb->groups[j].lambda0_m) ||
                 cJSON_IsTrue(c) != (tb->groups[j].converged != 0))
                 return dpz_err_set(
                     err, DPZ_EFORMAT,
@@ -219,7 +219,8 @@ dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *o
         const dpz_table *tb = &s[i].table[DPZ_TABLE_ALPHA];
         for (size_t g = 0; g < tb->n_groups; g++) {
             size_t p = 0;
-            while (p < n_wl && lam[p] != tb->groups[g].lambda0_m)
+            while (p < n_wl &&
+                   !dpz_sweep_same_wavelength(lam[p], tb->groups[g].lambda0_m))
                 p++;
             if (p == n_wl) {
                 st = dpz_err_set(

@@ -486,7 +486,8 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
         size_t p = dpz_sweep_shard_position(i, c->shard_index, c->shard_count);
         cJSON *w = cJSON_GetObjectItemCaseSensitive(r, "wavelength_m");
         cJSON *conv = cJSON_GetObjectItemCaseSensitive(r, "converged");
-        if (!cJSON_IsNumber(w) || w->valuedouble != c->wl[p] || !cJSON_IsBool(conv)) {
+        if (!cJSON_IsNumber(w) || !dpz_sweep_same_wavelength(w->valuedouble, c->wl[p]) ||
+            !cJSON_IsBool(conv)) {
             cJSON_Delete(old);
             return cli_fail(
                 "sweep: %s/summary.json: result %zu is not wavelength %.17g m", o->dir,

@@ -7,6 +7,7 @@
 #include <cJSON.h>
 #include <errno.h>
 #include <fcntl.h>
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -23,6 +24,11 @@ size_t dpz_sweep_shard_size(size_t n_total, size_t index, size_t count)
     if (count == 0 || index >= count || index >= n_total)
         return 0;
     return (n_total - index - 1) / count + 1;
+}
+
+int dpz_sweep_same_wavelength(double a, double b)
+{
+    return fabs(a - b) <= 4.0 * DBL_EPSILON * fmax(fabs(a), fabs(b));
 }
 
 size_t dpz_sweep_shard_position(size_t j, size_t index, size_t count)

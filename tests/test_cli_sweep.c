@@ -146,6 +146,18 @@ static void test_sweep_shard_partition(void **state)
     assert_int_equal(dpz_sweep_shard_size(3, 4, 4), 0);
 }
 
+/* cJSON prints 15 digits when they read back within its own epsilon: 1 ulp apart. */
+static void test_sweep_same_wavelength(void **state)
+{
+    (void)state;
+    double a = 200e-9 + 2 * 10e-9; /* 2.1999999999999998e-07, as LO + 2 STEP gives */
+    assert_true(a != 2.2e-7);
+    assert_true(dpz_sweep_same_wavelength(a, 2.2e-7));
+    assert_true(dpz_sweep_same_wavelength(nextafter(a, 1.0), a));
+    assert_false(dpz_sweep_same_wavelength(2.2e-7, 2.2000001e-7));
+    assert_false(dpz_sweep_same_wavelength(2.2e-7, -2.2e-7));
+}
+
 /* ---- rows -----------------------------------------------------------------------------
  */
 static void fill_result(dpz_sweep_result *r, size_t pos, double lambda, int converged)
@@ -583,6 +595,7 @@ int main(void)
         cmocka_unit_test(test_sha256_split_equals_whole),
         cmocka_unit_test(test_sha256_file_matches_buffer),
         cmocka_unit_test(test_sweep_shard_partition),
+        cmocka_unit_test(test_sweep_same_wavelength),
         cmocka_unit_test(test_sweep_rows_round_trip),
         cmocka_unit_test(test_sweep_table_cut_anywhere),
         cmocka_unit_test(test_sweep_table_damaged_rows),

@@ -1,0 +1,109 @@
+#!/usr/bin/env bash
+# e2e_sweep_shards.sh: four shards (--shard I/4) merged with `dipolize merge` equal the
+# single run over the whole list, and merge refuses (exit 2, nothing written) shards made
+# with other inputs, a missing wavelength, a duplicated one and a damaged table.
+#
+# Each shard warm-starts along its own chain of wavelengths (I, I+4, ...), the single run
+# along all of them, so the tables agree to the solver tolerance, not bit for bit: the
+# check allows 1e-6 relative to the largest element of each wavelength's tensor (the
+# solves stop at a relative residual of 1e-8). Usage: e2e_sweep_shards.sh PATH_TO_DIPOLIZE
+set -u
+bin=${1:?usage: e2e_sweep_shards.sh PATH_TO_DIPOLIZE}
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+fail() {
+    echo "FAIL: $*"
+    exit 1
+}
+py=/usr/bin/python3
+[ -x "$py" ] || py=python3
+
+"$bin" shape sphere --radius 4nm --spacing 1nm -o "$tmp/s.vtk" >/dev/null || fail "shape"
+args=(sweep "$tmp/s.vtk" --eps 2.25+0.1i --wavelengths 200nm:270nm:10nm --threads 1 --quiet)
+
+"$bin" "${args[@]}" -o "$tmp/single" || fail "single run (exit $?)"
+for i in 0 1 2 3; do
+    "$bin" "${args[@]}" --shard "$i/4" -o "$tmp/s$i" || fail "shard $i/4 (exit $?)"
+done
+n1=$(grep -vc '^#' "$tmp/s1/diagnostics.csv")
+[ "$n1" = 3 ] || fail "shard 1/4 of 8 wavelengths should hold 2 rows (file has $n1 lines)"
+
+"$bin" merge "$tmp/s3" "$tmp/s1" "$tmp/s0" "$tmp/s2" -o "$tmp/merged" --quiet ||
+    fail "merge of the four shards (exit $?)"
+
+# tables_close A B: same rows, same wavelengths and flags, values within tolerance.
+"$py" - "$tmp/single" "$tmp/merged" <<'PY' || fail "merged tables differ from the single run"
+import json, math, sys
+A, B = sys.argv[1:3]
+RTOL = 1e-6  # relative to the largest value of the wavelength (solver tol 1e-8)
+
+def rows(path):
+    lines = [l.rstrip("\n") for l in open(path) if not l.startswith("#")]
+    return lines[0], [l.split(",") for l in lines[1:]]
+
+bad = []
+for name, numeric in (("alpha.csv", [4, 5]), ("cross_sections.csv", [1, 2, 3, 4, 5, 6]),
+                      ("diagnostics.csv", [])):
+    ha, ra = rows(f"{A}/{name}")
+    hb, rb = rows(f"{B}/{name}")
+    if ha != hb or len(ra) != len(rb):
+        bad.append(f"{name}: header or row count differs ({len(ra)} vs {len(rb)})")
+        continue
+    # scale per wavelength: the largest magnitude among its numeric values
+    scale = {}
+    for r in ra:
+        for c in numeric:
+            scale[r[0]] = max(scale.get(r[0], 0.0), abs(float(r[c])))
+    for k, (x, y) in enumerate(zip(ra, rb)):
+        conv = 3 if name == "diagnostics.csv" else -1
+        if x[0] != y[0] or x[conv] != y[conv] or (name == "alpha.csv" and x[1:4] != y[1:4]):
+            bad.append(f"{name} row {k + 1}: keys differ: {x[:4]} vs {y[:4]}")
+            continue
+        for c in numeric:
+            a, b = float(x[c]), float(y[c])
+            if not abs(a - b) <= RTOL * scale[x[0]]:
+                bad.append(f"{name} row {k + 1} col {c + 1}: {a!r} vs {b!r}")
+        if name == "cross_sections.csv" and abs(float(x[7]) - float(y[7])) > 1e-6:
+            bad.append(f"{name} row {k + 1}: rel_diff {x[7]} vs {y[7]}")
+sa, sb = (json.load(open(f"{d}/summary.json")) for d in (A, B))
+for k in ("version", "materials", "options", "wavelengths_m", "shard", "finished"):
+    if sa[k] != sb[k]:
+        bad.append(f"summary.json: {k} differs")
+if sa["input"]["sha256"] != sb["input"]["sha256"] or sa["input"]["grid"] != sb["input"]["grid"]:
+    bad.append("summary.json: input differs")
+key = lambda r: (r["wavelength_m"], r["position"], r["converged"])
+if [key(r) for r in sa["results"]] != [key(r) for r in sb["results"]]:
+    bad.append("summary.json: results differ in wavelengths, positions or flags")
+if open(f"{A}/static.json").read() != open(f"{B}/static.json").read():
+    bad.append("static.json differs")
+for b in bad[:10]:
+    print(b)
+sys.exit(1 if bad else 0)
+PY
+
+# refuse NAME FRAGMENT DIR...: merge must exit 2 with FRAGMENT in its message, no output.
+refuse() {
+    local what=$1 frag=$2
+    shift 2
+    "$bin" merge "$@" -o "$tmp/out" 2>"$tmp/err" >/dev/null
+    local rc=$?
+    [ "$rc" = 2 ] || fail "merge with $what: exit $rc, expected 2"
+    grep -q -- "$frag" "$tmp/err" || fail "merge with $what: message lacks \"$frag\": $(cat "$tmp/err")"
+    [ "$(wc -l <"$tmp/err")" = 1 ] || fail "merge with $what: more than one line on stderr"
+    [ ! -e "$tmp/out" ] || fail "merge with $what left $tmp/out behind"
+}
+
+"$bin" "${args[@]}" --tol 1e-9 --shard 1/4 -o "$tmp/other" || fail "shard with --tol 1e-9"
+refuse "mixed inputs" "different inputs: options" "$tmp/s0" "$tmp/other" "$tmp/s2" "$tmp/s3"
+refuse "a missing shard" "is in none of" "$tmp/s0" "$tmp/s1" "$tmp/s2"
+cp -r "$tmp/s1" "$tmp/s1copy"
+refuse "a duplicate" "is in both" "$tmp/s0" "$tmp/s1" "$tmp/s2" "$tmp/s3" "$tmp/s1copy"
+cp -r "$tmp/s2" "$tmp/damaged"
+f="$tmp/damaged/cross_sections.csv"
+head -c $(($(wc -c <"$f") - 9)) "$f" >"$f.cut" && mv "$f.cut" "$f"
+refuse "a damaged shard" "damaged/cross_sections.csv: line 7" "$tmp/s0" "$tmp/s1" \
+    "$tmp/damaged" "$tmp/s3"
+refuse "no summary" "not a sweep directory" "$tmp/s0" "$tmp"
+refuse "a run given twice" "given twice" "$tmp/s0" "$tmp/s0"
+
+echo "e2e_sweep_shards: ok"

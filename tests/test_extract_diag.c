@@ -108,6 +108,31 @@ static double amax(double complex A[6][6])
     return m;
 }
 
+/* The reciprocity residual of constructed tensors: zero for a_em = -a_me^T with symmetric
+ * diagonal blocks, of order one for the wrong sign. */
+static void test_diag_reciprocity_residual_definition(void **state)
+{
+    (void)state;
+    uint64_t seed = 0x77aa55ULL;
+    double complex A[6][6];
+    for (int i = 0; i < 6; i++)
+        for (int j = i; j < 6; j++) {
+            double complex v = CMPLX(dpz_test_rand(&seed), dpz_test_rand(&seed));
+            A[i][j] = v;
+            /* symmetric ee and mm blocks, antisymmetric-transpose cross blocks */
+            A[j][i] = (i < 3 && j >= 3) ? -v : v;
+        }
+    assert_true(dpz_diag_reciprocity(A) < 4 * DBL_EPSILON);
+    A[0][4] = -A[0][4]; /* now a_em[0][1] = +a_me[1][0] */
+    assert_true(dpz_diag_reciprocity(A) > 0.1);
+    double complex Z[6][6];
+    memset(Z, 0, sizeof Z);
+    assert_true(dpz_diag_reciprocity(Z) == 0.0);
+    assert_true(dpz_diag_validity(Z, NULL, NULL) == 0.0);
+    dpz_err err;
+    assert_int_equal(dpz_diag_fluctuation(0.0, A, NULL, NULL, &err), DPZ_EINVAL);
+}
+
 /* Reciprocity holds to solver precision for asymmetric targets, while the opposite-sign
  * combination a_em - a_me^T is of the size of a_em (so the check has teeth). */
 static void test_diag_reciprocity_asymmetric(void **state)
@@ -469,6 +494,7 @@ static void test_diag_cross_sections_energy_balance(void **state)
 int main(void)
 {
     const struct CMUnitTest tests[] = {
+        cmocka_unit_test(test_diag_reciprocity_residual_definition),
         cmocka_unit_test(test_diag_reciprocity_asymmetric),
         cmocka_unit_test(test_diag_inversion_symmetric_has_no_em),
         cmocka_unit_test(test_diag_chirality_flips_under_mirror),

@@ -269,6 +269,37 @@ static void test_tblock_sphere_converges_to_mie(void **state)
     }
 }
 
+/* Warm starts: the solutions returned in `warm` reproduce the tensor when fed back, with
+ * (almost) no iterations. */
+static void test_tblock_warm_start(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_sphere(3, 4.3e-9);
+    dpz_setup s = make_setup(g, 12.25, 1e-10);
+    size_t n3 = 3 * g->n_occ;
+    double complex *buf = calloc(6 * n3, sizeof *buf);
+    assert_non_null(buf);
+    double complex *warm[6];
+    for (int c = 0; c < 6; c++)
+        warm[c] = buf + c * n3;
+    double k = 0.6 / dpz_grid_aeq(g);
+    dpz_tensor t0, t1;
+    assert_int_equal(dpz_tensor_compute(&s, 2.0 * PI / k, &t0, warm, NULL), DPZ_OK);
+    assert_int_equal(dpz_tensor_compute(&s, 2.0 * PI / k, &t1, warm, NULL), DPZ_OK);
+    size_t it0 = 0, it1 = 0;
+    for (int c = 0; c < 6; c++) {
+        it0 += t0.rhs[c].iterations;
+        it1 += t1.rhs[c].iterations;
+    }
+    print_message("iterations cold %zu, warm at the same wavelength %zu\n", it0, it1);
+    assert_true(it1 <= 6);
+    for (int i = 0; i < 6; i++)
+        for (int j = 0; j < 6; j++)
+            assert_cclose_abs(t1.A[i][j], t0.A[i][j], 1e-8, cabs(t0.A[0][0]));
+    free(buf);
+    dpz_grid_destroy(g);
+}
+
 static void test_tblock_rejects_bad_input(void **state)
 {
     (void)state;
@@ -338,6 +369,7 @@ int main(void)
         cmocka_unit_test(test_tblock_projection_of_origin_dipole),
         cmocka_unit_test(test_tblock_single_displaced_dipole),
         cmocka_unit_test(test_tblock_sphere_converges_to_mie),
+        cmocka_unit_test(test_tblock_warm_start),
         cmocka_unit_test(test_tblock_rejects_bad_input),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

@@ -658,7 +658,9 @@ static dpz_status cast_axis(const dpz_mesh *m, const axis_lattice lat[3], int ax
                 ncr++;
             }
     }
-    qsort(cr, ncr, sizeof *cr, cmp_crossing);
+    /* cr is NULL when no ray met a triangle; qsort requires a valid pointer. */
+    if (ncr > 1)
+        qsort(cr, ncr, sizeof *cr, cmp_crossing);
     int S = LA->S;
     size_t strides[3] = {nvox[1] * nvox[2], nvox[2], 1};
     for (size_t g0 = 0; g0 < ncr;) {

@@ -51,6 +51,11 @@ typedef struct dpz_grid {
 dpz_status dpz_grid_create(dpz_grid **out, size_t nx, size_t ny, size_t nz, double d_m,
                            size_t max_cells, dpz_err *err);
 
+/* Bytes a grid of nx * ny * nz voxels needs (header, labels, the occupied list when every
+ * voxel is occupied, and fill fractions when with_fill != 0), so that a caller can check
+ * memory before creating it; 0 when the count overflows size_t. */
+size_t dpz_grid_memory_need(size_t nx, size_t ny, size_t nz, int with_fill);
+
 /* Frees the grid and its arrays; NULL is a no-op. */
 void dpz_grid_destroy(dpz_grid *grid);
 

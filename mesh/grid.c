@@ -54,6 +54,17 @@ dpz_status dpz_grid_create(dpz_grid **out, size_t nx, size_t ny, size_t nz, doub
     return DPZ_OK;
 }
 
+size_t dpz_grid_memory_need(size_t nx, size_t ny, size_t nz, int with_fill)
+{
+    size_t nxy, n, per, total;
+    size_t per_voxel = 1 + sizeof(size_t) + (with_fill ? sizeof(float) : 0);
+    if (dpz_mul_overflow(nx, ny, &nxy) || dpz_mul_overflow(nxy, nz, &n) ||
+        dpz_mul_overflow(n, per_voxel, &per))
+        return 0;
+    total = per + sizeof(dpz_grid);
+    return total < per ? 0 : total;
+}
+
 void dpz_grid_destroy(dpz_grid *grid)
 {
     if (!grid)

@@ -207,6 +207,19 @@ static void test_grid_crop_keeps_positions(void **state)
     dpz_grid_destroy(g);
 }
 
+static void test_grid_memory_need(void **state)
+{
+    (void)state;
+    /* 10 x 20 x 30 voxels: one label byte and one size_t per voxel, plus 4 bytes of fill.
+     */
+    size_t n = 6000;
+    size_t base = dpz_grid_memory_need(10, 20, 30, 0);
+    assert_true(base >= n * (1 + sizeof(size_t)));
+    assert_int_equal(dpz_grid_memory_need(10, 20, 30, 1) - base, n * sizeof(float));
+    assert_int_equal(dpz_grid_memory_need(SIZE_MAX / 2, 4, 1, 0), 0);
+    assert_int_equal(dpz_grid_memory_need((size_t)1 << 40, (size_t)1 << 30, 1, 0), 0);
+}
+
 static void test_grid_allocation_failure(void **state)
 {
     (void)state;
@@ -249,6 +262,7 @@ int main(void)
         cmocka_unit_test(test_grid_empty_centroid_is_zero),
         cmocka_unit_test(test_grid_clone_is_deep),
         cmocka_unit_test(test_grid_crop_keeps_positions),
+        cmocka_unit_test(test_grid_memory_need),
         cmocka_unit_test(test_grid_allocation_failure),
     };
     return cmocka_run_group_tests(tests, NULL, NULL);

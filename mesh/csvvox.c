@@ -63,6 +63,8 @@ dpz_status dpz_csvvox_read(dpz_grid **out, const char *buf, size_t len, const ch
     dpz_grid *g = NULL;
     uint8_t *seen = NULL;
     size_t pos = 0;
+    if (len >= 3 && memcmp(buf, "\xEF\xBB\xBF", 3) == 0)
+        pos = 3; /* a UTF-8 byte-order mark, as spreadsheet programs write */
     while (pos < len) {
         line++;
         const char *ls = buf + pos;

@@ -177,6 +177,8 @@ dpz_status dpz_npy_read(dpz_grid **out, const char *buf, size_t len, const char 
                 (size_t)(p - buf));
         dims[nd++] = (size_t)x;
         p = e;
+        if (p < hend && *p == 'L')
+            p++; /* Python 2 long integers, written by old NumPy versions */
         while (p < hend && *p == ' ')
             p++;
         if (p < hend && *p == ',')

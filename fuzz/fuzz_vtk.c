@@ -1,0 +1,21 @@
+/* fuzz_vtk.c: libFuzzer harness for the VTK legacy structured-points reader. */
+#include "dpz_voxio.h"
+#include "fuzz_common.h"
+
+int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
+
+int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
+{
+    dpz_grid *g = NULL;
+    dpz_err err;
+    dpz_status s =
+        dpz_vtk_read(&g, (const char *)data, size, "fuzz.vtk", FUZZ_MAX_CELLS, &err);
+    if (s == DPZ_OK)
+        fuzz_check_grid(g, FUZZ_MAX_CELLS);
+    else {
+        FUZZ_CHECK(g == NULL);
+        fuzz_check_failure(s, &err);
+    }
+    dpz_grid_destroy(g);
+    return 0;
+}

@@ -746,6 +746,12 @@ static void test_npy_rejects_malformed(void **state)
     with_dict(buf, good, len,
               "{'descr': '<i2', 'fortran_order': 0, 'shape': (5, 4, 3), }");
     expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT, "fortran_order");
+    /* Python 2 longs in the shape, as old NumPy wrote them, are accepted. */
+    with_dict(buf, good, len,
+              "{'descr': '<i2', 'fortran_order': False, 'shape': (5L, 4L, 3L), }");
+    assert_int_equal(dpz_npy_read(&g, (const char *)buf, len, NULL, D, 0, NULL), DPZ_OK);
+    assert_memory_equal(g->label, labels, 60);
+    dpz_grid_destroy(g);
     with_dict(buf, good, len,
               "{'descr': '<i2', 'fortran_order': False, 'shape': (60,), }");
     expect_npy_failure(buf, len, D, 0, DPZ_EFORMAT,
@@ -877,6 +883,12 @@ static void expect_csv_failure(const char *text, double spacing, size_t max_cell
 static void test_csv_rejects_malformed(void **state)
 {
     (void)state;
+    /* Accepted variants: a UTF-8 byte-order mark before the header. */
+    const char *bom = "\xEF\xBB\xBFi,j,k,label\n2,0,1,9\n";
+    dpz_grid *gb = NULL;
+    assert_int_equal(dpz_csvvox_read(&gb, bom, strlen(bom), NULL, D, 0, NULL), DPZ_OK);
+    assert_int_equal(gb->label[dpz_grid_index(gb, 2, 0, 1)], 9);
+    dpz_grid_destroy(gb);
     expect_csv_failure("0,0,0,1\n", 0.0, 0, DPZ_EINVAL, "spacing is required");
     expect_csv_failure("", D, 0, DPZ_EFORMAT, "no voxel lines");
     expect_csv_failure("i,j,k,label\n# nothing\n", D, 0, DPZ_EFORMAT, "no voxel lines");

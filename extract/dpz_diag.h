@@ -22,7 +22,7 @@ double dpz_diag_reciprocity(double complex A[6][6]);
 /* Energy balance of the T column: W = T11 + T11^H + 2 sum_{n=1..3} Tn1^H Tn1 (T1 = T,
  * T2 and T3 as in dpz_tensor; either may be NULL to truncate earlier). Unitarity of the
  * full T matrix of a lossless scatterer, T + T^H = -2 T^H T (Mishchenko et al. 2002,
- * sec. 5.7, in this normalization), makes W -> 0 as the order grows; -W is the
+ * ch. 5, in this normalization), makes W -> 0 as the order grows; -W is the
  * absorption matrix (positive semi-definite for passive particles). Writes
  * ||W||_F / ||T11||_F to *balance (0 when T11 = 0) and the eigenvalues of -W,
  * ascending, to eig (may be NULL). DPZ_ELAPACK if the eigensolver fails. */

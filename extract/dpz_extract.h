@@ -25,15 +25,15 @@ extern "C" {
 
 /* Everything that fixes a solve apart from the wavelength. */
 typedef struct dpz_setup {
-    const dpz_grid *grid;            /* borrowed */
-    double complex eps_label[256];   /* permittivity per label, relative to vacuum, at the
-                                        wavelength of the call (entry 0 unused) */
-    double host_index;               /* n_h, real, >= 1 not required but > 0 */
+    const dpz_grid *grid;          /* borrowed */
+    double complex eps_label[256]; /* permittivity per label, relative to vacuum, at the
+                                      wavelength of the call (entry 0 unused) */
+    double host_index;             /* n_h, real, >= 1 not required but > 0 */
     dpz_dipole_model model;
     dpz_solve_opts solve;
     dpz_op_opts op;
-    int has_origin;                  /* 0: centroid of occupied voxel centres */
-    double origin_m[3];              /* multipole origin, grid frame, m (if has_origin) */
+    int has_origin;     /* 0: centroid of occupied voxel centres */
+    double origin_m[3]; /* multipole origin, grid frame, m (if has_origin) */
 } dpz_setup;
 
 /* Outcome of one right-hand side. */
@@ -48,8 +48,8 @@ typedef struct dpz_tensor {
     double origin_m[3];
     double complex A[6][6];   /* 6x6 polarizability, m^3 */
     double complex T[6][6];   /* order-1 T block, T[out][in] */
-    double complex T2[10][6]; /* order-2 outgoing coefficients for the six order-1 incident
-                                 waves: rows N_{2,-2..2}, M_{2,-2..2} */
+    double complex T2[10][6]; /* order-2 outgoing coefficients for the six order-1
+                                 incident waves: rows N_{2,-2..2}, M_{2,-2..2} */
     double complex T3[14][6]; /* order 3 likewise: N_{3,-3..3}, M_{3,-3..3} */
     /* Diagnostics (CONVENTIONS.md 7.6, 7.7) */
     double reciprocity;       /* max|A'-A'^T| / max|A'|, A' = D A D^H (7.6) */
@@ -62,13 +62,14 @@ typedef struct dpz_tensor {
     double dipole_validity;   /* ||[T2; T3]|| / ||T11||, Frobenius */
     int lossless;             /* every occupied label has Im(eps) == 0 */
     dpz_rhs_report rhs[6];
-    int converged;            /* all six right-hand sides converged */
+    int converged; /* all six right-hand sides converged */
 } dpz_tensor;
 
 /* The 6x6 tensor at vacuum wavelength lambda0_m. `warm`, when not NULL, points to six
- * vectors of 3*n_occ entries: the initial guesses on entry (e.g. the previous wavelength's
- * solutions; zero vectors for none) and the solutions on return. Returns DPZ_ENOCONV (with
- * `out` filled and out->converged = 0) when any right-hand side fails to converge. */
+ * vectors of 3*n_occ entries: the initial guesses on entry (e.g. the previous
+ * wavelength's solutions; zero vectors for none) and the solutions on return. Returns
+ * DPZ_ENOCONV (with `out` filled and out->converged = 0) when any right-hand side fails
+ * to converge. */
 dpz_status dpz_tensor_compute(const dpz_setup *setup, double lambda0_m, dpz_tensor *out,
                               double complex *warm[6], dpz_err *err);
 
@@ -81,12 +82,12 @@ dpz_status dpz_static_compute(const dpz_setup *setup, double complex chi[3][3],
  * permittivities fixed at setup->eps_label. */
 typedef struct dpz_expansion {
     double complex C0[3][3], C2[3][3], C3[3][3], C4[3][3]; /* dimensionless */
-    double fit_residual;     /* max over elements of the relative least-squares residual */
-    double radiative_check;  /* ||C3 + (2i/9) I|| / (2/9), Frobenius */
+    double fit_residual;    /* max over elements of the relative least-squares residual */
+    double radiative_check; /* ||C3 + (2i/9) I|| / (2/9), Frobenius */
     size_t n_points;
-    double points[64];       /* the x values used */
+    double points[64]; /* the x values used */
     int converged;
-    dpz_rhs_report worst;    /* the worst right-hand side over all solves */
+    dpz_rhs_report worst; /* the worst right-hand side over all solves */
 } dpz_expansion;
 
 /* Default list of size parameters (8 values in 0.05..0.4); returns the count. */
@@ -98,16 +99,16 @@ dpz_status dpz_expand_compute(const dpz_setup *setup, const double *x, size_t n,
 /* Cross sections for a plane wave E0 exp(i k khat.r) (khat unit vector, E0 complex, not
  * necessarily normalized; cross sections are per |E0|^2), m^2. */
 typedef struct dpz_xsec {
-    double ext, abs, sca;          /* full solve: optical theorem, voxel absorption, difference */
+    double ext, abs, sca; /* full solve: optical theorem, voxel absorption, difference */
     double ext_dip, abs_dip, sca_dip; /* point-dipole model A alone */
-    double rel_diff;               /* |ext - ext_dip| / ext */
+    double rel_diff;                  /* |ext - ext_dip| / ext */
     dpz_rhs_report rhs;
 } dpz_xsec;
 
 /* Needs the tensor at the same wavelength for the dipole-model numbers. */
-dpz_status dpz_xsec_compute(const dpz_setup *setup, double lambda0_m, const double khat[3],
-                            const double complex e0[3], const dpz_tensor *tensor,
-                            dpz_xsec *out, dpz_err *err);
+dpz_status dpz_xsec_compute(const dpz_setup *setup, double lambda0_m,
+                            const double khat[3], const double complex e0[3],
+                            const dpz_tensor *tensor, dpz_xsec *out, dpz_err *err);
 
 #ifdef __cplusplus
 }

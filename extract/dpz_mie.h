@@ -47,7 +47,7 @@ dpz_status dpz_mie_sphere(double complex eps_rel, double x, dpz_mie_result *out,
 
 /* Dipole polarizabilities of a sphere of radius a_m (m) in a host of wavenumber k (1/m),
  * in SI volume units (m^3): a_ee = 6 pi i a_1 / k^3 and a_mm = 6 pi i b_1 / k^3
- * (from the dipole terms of B&H 1983 eqs. 4.45-4.46 expressed as induced moments;
+ * (from the n = 1 terms of the scattered field, B&H 1983 sec. 4.4, as induced moments;
  * p / (eps0 eps_h) = a_ee E, m = a_mm H). Either output may be NULL. */
 dpz_status dpz_mie_dipole_alpha(double complex eps_rel, double k, double a_m,
                                 double complex *a_ee, double complex *a_mm, dpz_err *err);

@@ -29,12 +29,12 @@ dpz_status dpz_post_principal_herm(double complex blk[3][3], double values[3],
 /* Orientation averages (the isotropic parts, trace / 3, m^3) of the four blocks:
  * avg[0] = ee, avg[1] = em, avg[2] = me, avg[3] = mm. For random orientations the
  * average of R X R^T over all rotations R is (tr X / 3) I (common practice; e.g.
- * Mishchenko et al. 2002, sec. 4.3 for orientation averaging). */
+ * Mishchenko et al. 2002 for orientation averaging). */
 void dpz_post_orientation_average(double complex A[6][6], double complex avg[4]);
 
 /* Active rotation R = Rz(alpha) Ry(beta) Rz(gamma) (z-y-z Euler angles, radians;
- * Goldstein, Classical Mechanics, sec. 4.4 convention for the axes): the columns of R are
- * the rotated body axes in the grid frame. */
+ * the z-y-z variant of the Euler angles, e.g. Goldstein, Classical Mechanics): the
+ * columns of R are the rotated body axes in the grid frame. */
 void dpz_post_euler_matrix(const double euler[3], double R[3][3]);
 
 /* The tensor of the rotated particle: out = Q A Q^T, Q = blockdiag(R, R) (electric and

@@ -50,7 +50,7 @@ static inline size_t dpz_vswf_index(size_t n, int m)
 }
 
 /* Spherical unit vector e_m (m = -1, 0, +1): e_{+1} = -(x^ + i y^)/sqrt 2, e_0 = z^,
- * e_{-1} = (x^ - i y^)/sqrt 2 (Edmonds 1957, eq. 5.1.2), so that conj(e_m) . e_m' = delta
+ * e_{-1} = (x^ - i y^)/sqrt 2 (Edmonds 1957, sec. 5.1), so that conj(e_m) . e_m' = delta
  * and Y_1^m(r^) = sqrt(3/(4 pi)) r^ . e_m. */
 void dpz_vswf_unit(int m, double complex e[3]);
 
@@ -81,7 +81,7 @@ dpz_status dpz_vswf1_cart(dpz_vswf_kind kind, int m, double k, const double r[3]
                           double complex M[3], double complex N[3], dpz_err *err);
 
 /* Expansion of the plane wave E0 exp(i k khat . r) = sum a^M_mn RgM_mn + a^N_mn RgN_mn
- * (Tsang, Kong & Ding 2000; Mishchenko et al. 2002 eq. C.57 in this normalization):
+ * (Tsang, Kong & Ding 2000; Mishchenko et al. 2002 app. C, in this normalization):
  *     a^M_mn = 4 pi i^n conj(C_nm(khat)) . E0,   a^N_mn = 4 pi i^(n-1) conj(B_nm(khat)) .
  * E0. Writes dpz_vswf_count(nmax) coefficients to each of aM and aN (V/m when E0 is in
  * V/m). khat must be non-zero (it is normalized); E0 should be transverse to khat. */

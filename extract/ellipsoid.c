@@ -12,7 +12,7 @@ double dpz_carlson_rd(double x, double y, double z)
     if (!(x >= 0.0) || !(y >= 0.0) || !(z > 0.0) || (x == 0.0 && y == 0.0) ||
         !isfinite(x) || !isfinite(y) || !isfinite(z))
         return NAN;
-    /* Carlson 1995, Algorithm for R_D (eqs. 2.26-2.29): duplication
+    /* Carlson 1995, sec. 2, algorithm for R_D: duplication
      *   lambda = sqrt(x y) + sqrt(x z) + sqrt(y z), x <- (x + lambda)/4, ...
      * accumulating 3 sum 4^-m / (sqrt(z_m) (z_m + lambda_m)), until
      * 4^-m Q < |A_m| with Q = (r/4)^(-1/6) max|A_0 - x_0, ...| (r the tolerance), then a

@@ -131,7 +131,8 @@ dpz_status dpz_mie_dipole_alpha(double complex eps_rel, double k, double a_m,
     if (st != DPZ_OK)
         return st;
     /* Induced dipole moments of the n = 1 terms: a_ee = 6 pi i a_1 / k^3,
-     * a_mm = 6 pi i b_1 / k^3 (SI volume units; B&H 1983 eqs. 4.45-4.46 and 5.7-5.8). */
+     * a_mm = 6 pi i b_1 / k^3 (SI volume units; the n = 1 terms of the scattered field,
+     * B&H 1983 sec. 4.4, and their small-particle limits, B&H ch. 5). */
     double k3 = k * k * k;
     if (a_ee)
         *a_ee = 6.0 * DPZ_XPI * I * an[0] / k3;

@@ -266,7 +266,8 @@ dpz_status dpz_tblock_solve(const dpz_grid *grid, const double origin[3], double
     return DPZ_OK;
 }
 
-/* V = blockdiag(U, -i U), U = [e_{-1} e_0 e_{+1}] (columns; Edmonds 1957 eq. 5.1.2). */
+/* V = blockdiag(U, -i U), U = [e_{-1} e_0 e_{+1}] (columns; spherical basis vectors,
+ * Edmonds 1957 sec. 5.1). */
 void dpz__vmatrix(double complex V[6][6])
 {
     const double s = 0.70710678118654752440;

@@ -33,7 +33,7 @@ void dpz_vswf_unit(int m, double complex e[3])
  *   tau[n][m]  = d pbar / d theta.
  * Writing pbar_n^m = s^m q_n^m(x), q is a polynomial obtained from the standard
  * three-term recursions of the normalized functions (e.g. Holmes & Featherstone 2002,
- * J. Geodesy 76, 279, eqs. 11-13):
+ * J. Geodesy 76, 279):
  *   q_0^0 = 1/sqrt(4 pi),  q_m^m = -sqrt((2m+1)/(2m)) q_{m-1}^{m-1},
  *   q_{m+1}^m = sqrt(2m+3) x q_m^m,
  *   q_n^m = a_nm (x q_{n-1}^m - b_nm q_{n-2}^m), a = sqrt((4n^2-1)/(n^2-m^2)),

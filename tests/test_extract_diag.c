@@ -3,7 +3,7 @@
  * (Onsager-Casimir: a_ee = a_ee^T, a_mm = a_mm^T, a_em = -a_me^T), vanishing
  * magneto-electric coupling under inversion symmetry, sign change of the chirality under
  * mirror reflection, unitarity of the T column for lossless particles
- * (T + T^H = -2 T^H T; Mishchenko et al. 2002, sec. 5.7), the fluctuation tensor against
+ * (T + T^H = -2 T^H T; Mishchenko et al. 2002, ch. 5), the fluctuation tensor against
  * the leakage term, positivity for lossy particles, and the optical theorem against Mie
  * (Bohren & Huffman 1983). */
 #include <complex.h>

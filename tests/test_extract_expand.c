@@ -2,7 +2,7 @@
  * (dpz_expand_compute) against the universal radiative-reaction term C3 = -(2i/9) I
  * (Draine 1988: 1/alpha -> 1/alpha - i k^3/(6 pi), times V = 4 pi a^3/3) and, for
  * spheres, against the Mie expansion of 1/a_1 (Bohren & Huffman 1983, small-x series of
- * a_1 around eqs. 5.1-5.4, carried to x^4): V/a_ee = (e+2)/(3(e-1)) - (e-2)/(5(e-1)) x^2
+ * a_1 in ch. 5, carried to x^4): V/a_ee = (e+2)/(3(e-1)) - (e-2)/(5(e-1)) x^2
  * - (2i/9) x^3 - (e^2-24e+16)/(350(e-1)) x^4. (The x^2 and x^4 coefficients were obtained
  * by series expansion of the exact a_1; at eps 2.25 they are -0.04 and +0.075285714.) */
 #include <complex.h>

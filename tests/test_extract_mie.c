@@ -149,7 +149,7 @@ static void test_mie_public_check_values(void **state)
     assert_cclose(aee / V, CMPLX(0.88594719, 0.021816065), tol8);
 }
 
-/* Small-x limits (B&H 1983 eqs. 5.7-5.8 and the x^2 term of the a_1 series, B&H 5.2 ff.):
+/* Small-x limits (B&H 1983 ch. 5: Rayleigh limit of a_1 and the leading b_1 term):
  * a_ee -> 4 pi a^3 (eps-1)/(eps+2), a_mm -> V (eps-1) x^2 / 10; relative deviations scale
  * as x^2. */
 static void test_mie_small_x_limits(void **state)

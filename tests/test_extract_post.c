@@ -1,7 +1,7 @@
 /* test_extract_post.c: post-processing of polarizability tensors (extract/dpz_post.h):
- * z-y-z Euler rotations (Goldstein, Classical Mechanics, sec. 4.4), principal values and
- * axes, orientation averages (invariance of the trace under rotation), and the chirality
- * pseudoscalar (Lindell et al. 1994) under rotation and mirror reflection. */
+ * z-y-z Euler rotations (z-y-z variant, e.g. Goldstein, Classical Mechanics), principal
+ * values and axes, orientation averages (invariance of the trace under rotation), and the
+ * chirality pseudoscalar (Lindell et al. 1994) under rotation and mirror reflection. */
 #include <complex.h>
 #include <float.h>
 #include <math.h>

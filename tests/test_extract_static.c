@@ -76,7 +76,7 @@ static void test_static_depolarization_factors(void **state)
             assert_close(L[j], LREF[i].L[j], TOL_RD);
         assert_close(L[0] + L[1] + L[2], 1.0, TOL_RD); /* Osborn 1945: sum L_i = 1 */
     }
-    /* prolate spheroid closed form (B&H 1983 eq. 5.35):
+    /* prolate spheroid closed form (B&H 1983 sec. 5.3):
      * L_z = (1 - e^2)/e^2 (-1 + ln((1+e)/(1-e)) / (2e)), e^2 = 1 - a^2/c^2 */
     double a[3] = {1.0, 1.0, 2.7}, L[3];
     assert_int_equal(dpz_ellipsoid_depolarization(a, L, NULL), DPZ_OK);

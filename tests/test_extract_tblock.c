@@ -198,9 +198,10 @@ static void test_tblock_single_displaced_dipole(void **state)
  *   eps -10+1i:  a_ee 40%,   23%,   12%;     a_mm 16%,  3.8%, 12% (staircase oscillation)
  * Errors of this prescription fall roughly linearly with the spacing, with
  * staircase-induced oscillations, and are much larger for the magnetic block and for
- * high-index or metallic spheres (Draine & Flatau 1994, JOSA A 11, 1491, sec. 6, for the
- * |m| k d criterion). The test asserts the decrease (except for the oscillating metal
- * a_mm) and upper bounds at the finest grid 40% above the measured values. */
+ * high-index or metallic spheres (see the |m| k d < 1 validity criterion of Draine &
+ * Flatau 1994, JOSA A 11, 1491). The test asserts the decrease (except for the
+ * oscillating metal a_mm) and upper bounds at the finest grid 40% above the measured
+ * values. */
 typedef struct {
     double complex eps;
     double bound_ee, bound_mm; /* at R = 7 */

@@ -394,7 +394,7 @@ static void test_vswf_origin_and_axis_limits(void **state)
     }
 }
 
-/* Plane wave E0 exp(i k khat.r) = sum a^M RgM + a^N RgN (Mishchenko et al. 2002 eq. C.57
+/* Plane wave E0 exp(i k khat.r) = sum a^M RgM + a^N RgN (Mishchenko et al. 2002 app. C
  * in the orthonormal form), truncated at n = 20 for kr ~ 2: the tail is ~ (kr/2)^20/20!.
  */
 static void test_vswf_plane_wave_expansion(void **state)

@@ -2,11 +2,12 @@
  * polarizability tensor, the static tensor, the size expansion, cross sections and the
  * diagnostics that tell how far to trust them. The top-level API used by the CLI.
  *
- * Conventions (CONVENTIONS.md 1 and 7): SI, exp(-i omega t), host of real index n_h,
+ * Conventions: SI, exp(-i omega t), host of real index n_h,
  * k = 2 pi n_h / lambda0. The 6x6 tensor A = [[a_ee, a_em], [a_me, a_mm]] (m^3, row-major
  * A[row][col], rows/cols 0-2 electric x,y,z, 3-5 magnetic x,y,z) maps [E; Z_h H] at the
  * multipole origin to [p / (eps0 eps_h); Z_h m]. The T block uses the ordering
- * [N_{1,-1}, N_{1,0}, N_{1,+1}, M_{1,-1}, M_{1,0}, M_{1,+1}] (CONVENTIONS.md 7.3). */
+ * [N_{1,-1}, N_{1,0}, N_{1,+1}, M_{1,-1}, M_{1,0}, M_{1,+1}] (wave functions and T-block
+ * construction in dpz_vswf.h and dpz_tblock.h; Mackowski 2002, JOSA A 19, 881). */
 #ifndef DPZ_EXTRACT_EXTRACT_H
 #define DPZ_EXTRACT_EXTRACT_H
 
@@ -51,8 +52,9 @@ typedef struct dpz_tensor {
     double complex T2[10][6]; /* order-2 outgoing coefficients for the six order-1
                                  incident waves: rows N_{2,-2..2}, M_{2,-2..2} */
     double complex T3[14][6]; /* order 3 likewise: N_{3,-3..3}, M_{3,-3..3} */
-    /* Diagnostics (CONVENTIONS.md 7.6, 7.7) */
-    double reciprocity;       /* max|A'-A'^T| / max|A'|, A' = D A D^H (7.6) */
+    /* Diagnostics (see dpz_diag.h) */
+    double reciprocity;       /* max|A'-A'^T| / max|A'|, A' = D A D^H,
+                                 D = diag(1,1,1,i,i,i) */
     double energy_balance;    /* ||T11 + T11^H + 2 sum_{n<=3} Tn1^H Tn1|| / ||T11||
                                  (Frobenius): ~0 for lossless particles */
     double absorption_eig[6]; /* eigenvalues of -(T11 + T11^H + 2 sum Tn1^H Tn1),
@@ -61,24 +63,30 @@ typedef struct dpz_tensor {
                                  ascending */
     double dipole_validity;   /* ||[T2; T3]|| / ||T11||, Frobenius */
     int lossless;             /* every occupied label has Im(eps) == 0 */
-    dpz_rhs_report rhs[6];
+    dpz_rhs_report
+        rhs[6];    /* the six solves: incident waves W_c = sum_m conj(U_cm)
+                      RgN_1m (c = x, y, z), then the same for RgM (dpz_tblock.h) */
     int converged; /* all six right-hand sides converged */
 } dpz_tensor;
 
 /* The 6x6 tensor at vacuum wavelength lambda0_m. `warm`, when not NULL, points to six
  * vectors of 3*n_occ entries: the initial guesses on entry (e.g. the previous
- * wavelength's solutions; zero vectors for none) and the solutions on return. Returns
- * DPZ_ENOCONV (with `out` filled and out->converged = 0) when any right-hand side fails
- * to converge. */
+ * wavelength's solutions; zero vectors for none) and the solutions on return (in the
+ * order of out->rhs). Returns DPZ_ENOCONV (with `out` filled and out->converged = 0) when
+ * any right-hand side fails to converge; DPZ_EINVAL for bad input (empty grid, lambda0 or
+ * host index not positive, a label with the host's permittivity), DPZ_ENOMEM, DPZ_EFFTW,
+ * DPZ_ELAPACK otherwise. Solver options left all zero (tol 0, max_iter 0) mean
+ * dpz_solve_opts_default(). Builds one FFT operator per call. */
 dpz_status dpz_tensor_compute(const dpz_setup *setup, double lambda0_m, dpz_tensor *out,
                               double complex *warm[6], dpz_err *err);
 
 /* Static tensor chi (3x3, m^3, chi[row][col]): the k = 0 Clausius-Mossotti solve with
- * uniform fields along x, y, z (CONVENTIONS.md 3). eps_label taken from setup. */
+ * uniform fields along x, y, z (Purcell & Pennypacker 1973 at k = 0). eps_label taken
+ * from setup. */
 dpz_status dpz_static_compute(const dpz_setup *setup, double complex chi[3][3],
                               dpz_rhs_report rhs[3], dpz_err *err);
 
-/* Size expansion V a_ee^-1(x) - C0 = C2 x^2 + C3 x^3 + C4 x^4 (DESIGN.md), x = k a_eq,
+/* Size expansion V a_ee^-1(x) - C0 = C2 x^2 + C3 x^3 + C4 x^4, x = k a_eq,
  * permittivities fixed at setup->eps_label. */
 typedef struct dpz_expansion {
     double complex C0[3][3], C2[3][3], C3[3][3], C4[3][3]; /* dimensionless */
@@ -93,6 +101,13 @@ typedef struct dpz_expansion {
 /* Default list of size parameters (8 values in 0.05..0.4); returns the count. */
 size_t dpz_expand_default_points(double x[64]);
 
+/* For each x[i] (n of them, 4..64, positive, distinct): k = x / a_eq (a_eq of the grid's
+ * volume), a_ee from the N-wave columns of the T block, then the least-squares fit
+ * (LAPACKE_zgels) per element. C0 = V chi^-1 from dpz_static_compute; V = the grid's
+ * volume. fit_residual: max over elements of ||residual|| / ||data||, elements that
+ * vanish by symmetry measured against 1e-3 of the largest. DPZ_ENOCONV (out filled,
+ * converged = 0) when a solve did not converge; DPZ_ERANGE when chi or a_ee is singular.
+ */
 dpz_status dpz_expand_compute(const dpz_setup *setup, const double *x, size_t n,
                               dpz_expansion *out, dpz_err *err);
 
@@ -105,7 +120,14 @@ typedef struct dpz_xsec {
     dpz_rhs_report rhs;
 } dpz_xsec;
 
-/* Needs the tensor at the same wavelength for the dipole-model numbers. */
+/* Plane wave with phase referred to the multipole origin o = tensor->origin_m:
+ * E_inc(r) = E0 exp(i k khat . (r - o)) (khat is normalized here; E0 must be transverse,
+ * |khat . E0| <= 1e-10 |E0|). ext by the optical theorem k Im(sum_j conj(E_inc,j) . p~_j)
+ * / |E0|^2, abs = (k/|E0|^2) sum_j |p~_j|^2 (-Im(1/alpha_j) - k^3/(6 pi)) (Draine 1988,
+ * ApJ 333, 848, in SI volume units), sca = ext - abs. The dipole-model numbers use
+ * tensor->A with E(o) = E0, Z_h H(o) = khat x E0. Needs the tensor of the same setup at
+ * the same wavelength (DPZ_EINVAL otherwise). DPZ_ENOCONV (out filled) when the solve did
+ * not converge. */
 dpz_status dpz_xsec_compute(const dpz_setup *setup, double lambda0_m,
                             const double khat[3], const double complex e0[3],
                             const dpz_tensor *tensor, dpz_xsec *out, dpz_err *err);

@@ -708,6 +708,70 @@ static void test_stl_example_files(void **state)
     }
 }
 
+/* A torus (non-convex, with a hole: rays cross it up to four times), meshed from a
+ * periodic parameter grid so that vertices are shared exactly, voxelizes like the exact
+ * torus (sqrt(x^2 + y^2) - Rt)^2 + z^2 <= r^2 except within one voxel of its surface.
+ * Pappus: the exact torus volume is 2 pi^2 Rt r^2. */
+static void test_stl_torus_matches_exact_torus(void **state)
+{
+    (void)state;
+    const double pi = 3.14159265358979323846;
+    const double Rt = 9.7, r = 3.3, d = 0.61; /* mesh units = metres here */
+    const int nu = 96, nv = 48;
+    double *pts = malloc((size_t)nu * nv * 3 * sizeof *pts);
+    assert_non_null(pts);
+    for (int i = 0; i < nu; i++)
+        for (int j = 0; j < nv; j++) {
+            double u = 2 * pi * i / nu, v = 2 * pi * j / nv;
+            double *p = pts + 3 * (i * nv + j);
+            p[0] = (Rt + r * cos(v)) * cos(u);
+            p[1] = (Rt + r * cos(v)) * sin(u);
+            p[2] = r * sin(v);
+        }
+    tris m = {0};
+    for (int i = 0; i < nu; i++)
+        for (int j = 0; j < nv; j++) {
+            const double *a = pts + 3 * (i * nv + j);
+            const double *b = pts + 3 * (((i + 1) % nu) * nv + j);
+            const double *c = pts + 3 * (((i + 1) % nu) * nv + (j + 1) % nv);
+            const double *e = pts + 3 * (i * nv + (j + 1) % nv);
+            add_tri(&m, a, b, c);
+            add_tri(&m, a, c, e);
+        }
+    free(pts);
+    dpz_mesh *mesh = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_mesh_from_triangles(&mesh, m.t, m.n, "torus", 1.0, &err),
+                     DPZ_OK);
+    double v_exact = 2 * pi * pi * Rt * r * r;
+    /* Inscribed polyhedron: a little below the smooth torus. */
+    assert_true(mesh->volume_m3 < v_exact && mesh->volume_m3 > 0.99 * v_exact);
+    dpz_grid *g = vox_ok(mesh, d, 0);
+    size_t differ = 0, inside = 0;
+    for (size_t idx = 0; idx < g->nx * g->ny * g->nz; idx++) {
+        double p[3];
+        dpz_grid_centre(g, idx, p);
+        double q = hypot(hypot(p[0], p[1]) - Rt, p[2]); /* distance to the core circle */
+        int want = q <= r;
+        inside += want;
+        if ((g->label[idx] != 0) != want) {
+            differ++;
+            assert_true(fabs(q - r) <= d);
+        }
+    }
+    print_message("torus: %zu of %zu voxels differ from the exact torus, all within one "
+                  "voxel of its surface\n",
+                  differ, inside);
+    assert_true(inside > 8000); /* V / d^3 = 2 pi^2 Rt r^2 / d^3 = 9190 */
+    assert_true(differ < inside / 50);
+    /* The hole is empty: the voxel at the centre is outside. */
+    size_t centre = dpz_grid_index(g, g->nx / 2, g->ny / 2, g->nz / 2);
+    assert_int_equal(g->label[centre], 0);
+    dpz_grid_destroy(g);
+    dpz_mesh_destroy(mesh);
+    free(m.t);
+}
+
 int main(void)
 {
     const struct CMUnitTest tests[] = {
@@ -715,6 +779,7 @@ int main(void)
         cmocka_unit_test(test_stl_cube_matches_builtin_box),
         cmocka_unit_test(test_stl_icosphere_matches_builtin_sphere),
         cmocka_unit_test(test_stl_inverted_mesh_is_turned),
+        cmocka_unit_test(test_stl_torus_matches_exact_torus),
         cmocka_unit_test(test_stl_rejects_open_and_misoriented),
         cmocka_unit_test(test_stl_rejects_malformed),
         cmocka_unit_test(test_stl_voxelize_errors_and_allocation),

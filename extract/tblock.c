@@ -107,21 +107,17 @@ static int is_noconv(dpz_status st)
     return st == DPZ_ENOCONV || st == DPZ_EBREAKDOWN || st == DPZ_ESTAGNATION;
 }
 
-/* U = [e_{-1} e_0 e_{+1}] (columns), U[c][m + 1] = component c of e_m. */
+/* U = [e_{-1} e_0 e_{+1}] (columns), U[c][m + 1] = component c of e_m; a constant table,
+ * so concurrent callers share it safely. */
+#define DPZ_R2 0.70710678118654752440
+static const double complex DPZ_U[9] = {
+    CMPLX(DPZ_R2, 0.0),  CMPLX(0.0, 0.0), CMPLX(-DPZ_R2, 0.0),
+    CMPLX(0.0, -DPZ_R2), CMPLX(0.0, 0.0), CMPLX(0.0, -DPZ_R2),
+    CMPLX(0.0, 0.0),     CMPLX(1.0, 0.0), CMPLX(0.0, 0.0)};
+
 static const double complex *umat(void)
 {
-    static double complex U[9];
-    const double s = 0.70710678118654752440;
-    U[0] = s;
-    U[1] = 0.0;
-    U[2] = -s;
-    U[3] = CMPLX(0.0, -s);
-    U[4] = 0.0;
-    U[5] = CMPLX(0.0, -s);
-    U[6] = 0.0;
-    U[7] = 1.0;
-    U[8] = 0.0;
-    return U;
+    return DPZ_U;
 }
 
 /* Cartesian combination W_c = sum_m conj(U[c][m]) RgPsi_1m of the order-1 waves (type N

@@ -2,6 +2,7 @@
  * option groups, messages and exit codes, and the solver options common to every
  * computing subcommand. */
 #include "cli_int.h"
+#include "cli_limits.h"
 
 #include <stdarg.h>
 #include <stdlib.h>
@@ -66,6 +67,7 @@ static const cli_opt solver_opts[] = {
     {"--tol", "X", "relative residual at which a solve stops (default 1e-8)", 0},
     {"--max-iter", "N", "iteration limit per solve (default 10000)", 0},
     {"--threads", "N", "FFTW/OpenMP threads (default 1)", 0},
+    {"--max-memory", "SIZE", CLI_MAX_MEMORY_HELP, 0},
     {NULL, NULL, NULL, 0},
 };
 const cli_group cli_group_solver = {"Solver", solver_opts};

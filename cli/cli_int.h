@@ -135,6 +135,10 @@ typedef enum {
 int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
                       cli_src_format *fmt, double *mesh_volume);
 const char *cli_src_format_name(cli_src_format f);
+/* The STL file named by a mesh record `rec` found in the VTK file `vtk_path`: `rec`
+ * itself, else (when relative) beside the VTK file. Writes the path into out; 0 when it
+ * opens. */
+int cli_resolve_mesh_path(const char *vtk_path, const char *rec, char *out, size_t len);
 
 /* ---- refinement (refine.c) */
 #define CLI_REFINE_MAX 4

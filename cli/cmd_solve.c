@@ -3,6 +3,7 @@
  * a readable table or one JSON object. A solve that does not converge is still reported
  * (marked converged = false) and gives exit code 1. */
 #include "cli_int.h"
+#include "cli_limits.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -251,7 +252,11 @@ static int run_static(const cli_args *a)
         rc = cli_refine_option(a, &levels);
     if (rc == CLI_OK && levels)
         rc = cli_refine_build(a, j.grid, levels, &ref);
+    if (rc == CLI_OK)
+        rc = cli_limits_check(a, levels ? ref.grid[levels - 1] : j.grid, &j.setup,
+                              CLI_WORK_STATIC);
     if (rc != CLI_OK) {
+        cli_refine_free(&ref);
         job_free(&j);
         return rc;
     }
@@ -426,7 +431,11 @@ static int run_tensor(const cli_args *a)
         rc = cli_refine_option(a, &levels);
     if (rc == CLI_OK && levels)
         rc = cli_refine_build(a, j.grid, levels, &ref);
+    if (rc == CLI_OK)
+        rc = cli_limits_check(a, levels ? ref.grid[levels - 1] : j.grid, &j.setup,
+                              CLI_WORK_TENSOR);
     if (rc != CLI_OK) {
+        cli_refine_free(&ref);
         job_free(&j);
         return rc;
     }
@@ -695,6 +704,8 @@ static int run_expand(const cli_args *a)
             n = dpz_expand_default_points(x);
         }
     }
+    if (rc == CLI_OK)
+        rc = cli_limits_check(a, j.grid, &j.setup, CLI_WORK_EXPAND);
     if (rc != CLI_OK) {
         job_free(&j);
         return rc;

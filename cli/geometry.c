@@ -26,6 +26,26 @@ const char *cli_src_format_name(cli_src_format f)
     }
 }
 
+int cli_resolve_mesh_path(const char *vtk_path, const char *rec, char *out, size_t len)
+{
+    FILE *f;
+    if (snprintf(out, len, "%s", rec) < (int)len && (f = fopen(out, "rb"))) {
+        fclose(f);
+        return 0;
+    }
+    /* A relative record is relative to where voxelize ran; try the VTK file's folder. */
+    const char *slash = strrchr(vtk_path, '/');
+    if (rec[0] != '/' && slash) {
+        int n = snprintf(out, len, "%.*s/%s", (int)(slash - vtk_path), vtk_path, rec);
+        if (n > 0 && (size_t)n < len && (f = fopen(out, "rb"))) {
+            fclose(f);
+            return 0;
+        }
+    }
+    snprintf(out, len, "%s", rec);
+    return -1;
+}
+
 static int ends_with(const char *s, const char *suffix)
 {
     size_t n = strlen(s), m = strlen(suffix);
@@ -99,12 +119,13 @@ int cli_load_geometry(const cli_args *a, const char *path, dpz_grid **grid,
                 dpz_grid_destroy(g);
                 g = NULL;
                 if (s == DPZ_OK) {
-                    FILE *mf = fopen(mesh_path, "rb");
-                    if (!mf)
+                    char rec[1024];
+                    snprintf(rec, sizeof rec, "%s", mesh_path);
+                    if (cli_resolve_mesh_path(path, rec, mesh_path, sizeof mesh_path) !=
+                        0)
                         return cli_fail("%s: %s records the mesh %s, which cannot be "
                                         "opened (%s): re-voxelize the STL file itself",
-                                        cmd, path, mesh_path, strerror(errno));
-                    fclose(mf);
+                                        cmd, path, rec, strerror(errno));
                     cli_progress(a, "re-voxelizing the recorded mesh %s at %.4g m",
                                  mesh_path, dd);
                     double vol = -1.0;

@@ -95,11 +95,11 @@ int cli_refine_build(const cli_args *a, const dpz_grid *base, size_t levels,
     else if (base->source_kind == DPZ_SOURCE_MESH &&
              dpz_mesh_parse_record(base->source, &unit_m, mesh_path, sizeof mesh_path,
                                    &e) == DPZ_OK) {
-        FILE *f = fopen(mesh_path, "rb");
-        if (f) {
-            fclose(f);
+        char rec[1024];
+        snprintf(rec, sizeof rec, "%s", mesh_path);
+        if (cli_resolve_mesh_path(a->npos ? a->pos[0] : "", rec, mesh_path,
+                                  sizeof mesh_path) == 0)
             kind = 2;
-        }
     }
     r->how = kind == 0   ? "split voxels"
              : kind == 1 ? "re-voxelized shape"

@@ -22,9 +22,10 @@
  * CELL_DATA (then DIMENSIONS count points, voxels = points - 1 per axis, and ORIGIN is
  * the corner of the first voxel); scalar types unsigned_char, char, short,
  * unsigned_short, int, unsigned_int, float and double holding integral values 0..255;
- * the array named "labels", else the first scalar array, gives the labels; an array
- * named "fill" (values in [0, 1]) gives fill fractions; SPACING must be equal on all
- * three axes. */
+ * the first SCALARS array not named "fill" (or a FIELD array named "labels") gives the
+ * labels; an array named "fill" (values in [0, 1]) gives fill fractions; other FIELD
+ * arrays and METADATA blocks (as written by recent VTK versions) are skipped; SPACING
+ * must be equal on all three axes. */
 #ifndef DPZ_MESH_VOXIO_H
 #define DPZ_MESH_VOXIO_H
 

@@ -277,6 +277,20 @@ static dpz_status read_ascii(cursor *c, size_t n, const dims3 *d, int dest_kind,
     return DPZ_OK;
 }
 
+/* Skips a METADATA block: lines up to the first empty one (or the end of the input). */
+static dpz_status skip_metadata(cursor *c)
+{
+    char line[MAX_LINE];
+    size_t ln;
+    for (;;) {
+        int r = next_line(c, line, &ln);
+        if (r < 0)
+            return c->err ? c->err->code : DPZ_EFORMAT;
+        if (r == 0 || strspn(line, " \t") == strlen(line))
+            return DPZ_OK;
+    }
+}
+
 /* Restores the geometry source from the title line. */
 static dpz_status parse_title(cursor *c, const char *title, dpz_grid *g)
 {
@@ -482,89 +496,159 @@ dpz_status dpz_vtk_read(dpz_grid **out, const char *buf, size_t len, const char 
         if (r == 0)
             break;
         nw = split_words(line, w, 8);
-        if (strcasecmp(w[0], "SCALARS") != 0) {
+        if (strcasecmp(w[0], "METADATA") == 0) {
+            /* Information keys written by recent VTK versions: text lines up to an empty
+             * line. Nothing in them is needed. */
+            st = skip_metadata(&c);
+            if (st != DPZ_OK)
+                goto fail;
+            continue;
+        }
+        size_t narrays = 1;
+        int field = strcasecmp(w[0], "FIELD") == 0;
+        if (field) {
+            if (nw != 3 || parse_count(w[2], &narrays)) {
+                st = dpz_err_set(err, DPZ_EFORMAT,
+                                 WHO
+                                 ": %s: line %zu: FIELD needs a name and an array count",
+                                 name, ln);
+                goto fail;
+            }
+        } else if (strcasecmp(w[0], "SCALARS") != 0) {
             st = dpz_err_set(
                 err, DPZ_EFORMAT,
-                WHO ": %s: line %zu: unexpected '%s' (only SCALARS arrays of one "
-                    "POINT_DATA or CELL_DATA section are read)",
+                WHO
+                ": %s: line %zu: unexpected '%s' (only SCALARS and FIELD arrays of one "
+                "POINT_DATA or CELL_DATA section are read)",
                 name, ln, w[0]);
             goto fail;
         }
-        if (nw < 3 || nw > 4) {
-            st = dpz_err_set(err, DPZ_EFORMAT,
-                             WHO ": %s: line %zu: SCALARS needs a name and a type", name,
-                             ln);
-            goto fail;
-        }
-        size_t ncomp = 1;
-        if (nw == 4 && (parse_count(w[3], &ncomp) || ncomp != 1)) {
-            st = dpz_err_set(err, DPZ_EFORMAT,
-                             WHO ": %s: line %zu: SCALARS must have one component", name,
-                             ln);
-            goto fail;
-        }
-        int ti = -1;
-        for (int q = 0; q < (int)(sizeof vtypes / sizeof vtypes[0]); q++)
-            if (strcasecmp(w[2], vtypes[q].name) == 0)
-                ti = q;
-        if (ti < 0) {
-            st = dpz_err_set(
-                err, DPZ_EFORMAT,
-                WHO ": %s: line %zu: unsupported scalar type '%s' (use "
-                    "unsigned_char, char, short, unsigned_short, int, unsigned_int, "
-                    "float or double)",
-                name, ln, w[2]);
-            goto fail;
-        }
-        int is_fill = strcmp(w[1], "fill") == 0;
-        int dest = 2;
-        if (is_fill) {
-            if (g->fill) {
-                st = dpz_err_set(err, DPZ_EFORMAT,
-                                 WHO ": %s: line %zu: second 'fill' array", name, ln);
+        for (size_t fa = 0; fa < narrays; fa++) {
+            /* SCALARS name type [components] | FIELD array: name components tuples type
+             */
+            const char *aname, *tname;
+            size_t ncomp = 1, ntuples = total;
+            if (field) {
+                r = next_content_line(&c, line, &ln);
+                if (r <= 0) {
+                    st = r < 0
+                             ? (err ? err->code : DPZ_EFORMAT)
+                             : dpz_err_set(err, DPZ_EFORMAT,
+                                           WHO ": %s: line %zu: FIELD array %zu missing",
+                                           name, c.line, fa + 1);
+                    goto fail;
+                }
+                nw = split_words(line, w, 8);
+                if (nw != 4 || parse_count(w[1], &ncomp) || parse_count(w[2], &ntuples)) {
+                    st = dpz_err_set(err, DPZ_EFORMAT,
+                                     WHO ": %s: line %zu: a FIELD array needs 'name "
+                                         "components tuples type'",
+                                     name, ln);
+                    goto fail;
+                }
+                aname = w[0];
+                tname = w[3];
+                if (ntuples != total) {
+                    st = dpz_err_set(err, DPZ_EFORMAT,
+                                     WHO
+                                     ": %s: line %zu: FIELD array '%s' has %zu tuples, "
+                                     "%zu expected",
+                                     name, ln, aname, ntuples, total);
+                    goto fail;
+                }
+            } else {
+                if (nw < 3 || nw > 4) {
+                    st = dpz_err_set(
+                        err, DPZ_EFORMAT,
+                        WHO ": %s: line %zu: SCALARS needs a name and a type", name, ln);
+                    goto fail;
+                }
+                if (nw == 4 && (parse_count(w[3], &ncomp) || ncomp != 1)) {
+                    st = dpz_err_set(
+                        err, DPZ_EFORMAT,
+                        WHO ": %s: line %zu: SCALARS must have one component", name, ln);
+                    goto fail;
+                }
+                aname = w[1];
+                tname = w[2];
+            }
+            int ti = -1;
+            for (int q = 0; q < (int)(sizeof vtypes / sizeof vtypes[0]); q++)
+                if (strcasecmp(tname, vtypes[q].name) == 0)
+                    ti = q;
+            if (ti < 0) {
+                st = dpz_err_set(
+                    err, DPZ_EFORMAT,
+                    WHO ": %s: line %zu: unsupported scalar type '%s' (use "
+                        "unsigned_char, char, short, unsigned_short, int, unsigned_int, "
+                        "float or double)",
+                    name, ln, tname);
                 goto fail;
             }
-            g->fill = dpz__calloc(total, sizeof *g->fill);
-            if (!g->fill) {
-                st = dpz_err_set(err, DPZ_ENOMEM,
-                                 WHO ": %s: out of memory for fill fractions", name);
+            /* Labels: the first SCALARS array not named "fill", or a FIELD array named
+             * "labels"; fill: an array named "fill"; anything else is skipped. */
+            int dest = 2;
+            if (strcmp(aname, "fill") == 0 && ncomp == 1) {
+                if (g->fill) {
+                    st = dpz_err_set(err, DPZ_EFORMAT,
+                                     WHO ": %s: line %zu: second 'fill' array", name, ln);
+                    goto fail;
+                }
+                g->fill = dpz__calloc(total, sizeof *g->fill);
+                if (!g->fill) {
+                    st = dpz_err_set(err, DPZ_ENOMEM,
+                                     WHO ": %s: out of memory for fill fractions", name);
+                    goto fail;
+                }
+                dest = 1;
+            } else if (!have_labels && ncomp == 1 &&
+                       (!field || strcmp(aname, "labels") == 0)) {
+                have_labels = 1;
+                dest = 0;
+            }
+            size_t nvalues;
+            if (dpz_mul_overflow(ncomp, ntuples, &nvalues)) {
+                st = dpz_err_set(err, DPZ_ELIMIT, WHO ": %s: line %zu: array too large",
+                                 name, ln);
                 goto fail;
             }
-            dest = 1;
-        } else if (!have_labels) {
-            have_labels = 1;
-            dest = 0;
+            if (!field) {
+                /* An optional LOOKUP_TABLE line precedes the values. Peek without
+                 * reading a line: without it, binary data (NUL bytes included) follow
+                 * directly. */
+                size_t peek = c.pos;
+                while (peek < c.len && strchr(" \t\r\n", c.buf[peek]) && c.buf[peek])
+                    peek++;
+                if (c.len - peek >= 12 &&
+                    strncasecmp(c.buf + peek, "LOOKUP_TABLE", 12) == 0) {
+                    r = next_content_line(&c, line, &ln);
+                    if (r < 0) {
+                        st = err ? err->code : DPZ_EFORMAT;
+                        goto fail;
+                    }
+                    char *lw[4];
+                    if (split_words(line, lw, 4) != 2) {
+                        st = dpz_err_set(
+                            err, DPZ_EFORMAT,
+                            WHO ": %s: line %zu: LOOKUP_TABLE needs one name", name, ln);
+                        goto fail;
+                    }
+                }
+            }
+            if (binary)
+                st = read_binary(&c, nvalues, vtypes[ti].type, vtypes[ti].size, &d3, dest,
+                                 g->label, g->fill);
+            else
+                st = read_ascii(&c, nvalues, &d3, dest, g->label, g->fill);
+            if (st != DPZ_OK)
+                goto fail;
         }
-        /* An optional LOOKUP_TABLE line precedes the values. Peek without reading a
-         * line: without it, binary data (NUL bytes included) follow directly. */
-        size_t peek = c.pos;
-        while (peek < c.len && strchr(" \t\r\n", c.buf[peek]) && c.buf[peek])
-            peek++;
-        if (c.len - peek >= 12 && strncasecmp(c.buf + peek, "LOOKUP_TABLE", 12) == 0) {
-            r = next_content_line(&c, line, &ln);
-            if (r < 0) {
-                st = err ? err->code : DPZ_EFORMAT;
-                goto fail;
-            }
-            char *lw[4];
-            if (split_words(line, lw, 4) != 2) {
-                st = dpz_err_set(err, DPZ_EFORMAT,
-                                 WHO ": %s: line %zu: LOOKUP_TABLE needs one name", name,
-                                 ln);
-                goto fail;
-            }
-        }
-        if (binary)
-            st = read_binary(&c, total, vtypes[ti].type, vtypes[ti].size, &d3, dest,
-                             g->label, g->fill);
-        else
-            st = read_ascii(&c, total, &d3, dest, g->label, g->fill);
-        if (st != DPZ_OK)
-            goto fail;
     }
     if (!have_labels) {
         st = dpz_err_set(err, DPZ_EFORMAT,
-                         WHO ": %s: no label array (SCALARS) in the file", name);
+                         WHO ": %s: no label array (SCALARS, or a FIELD array named "
+                             "'labels') in the file",
+                         name);
         goto fail;
     }
     st = dpz_grid_update(g, err);

@@ -348,6 +348,75 @@ static void test_vtk_read_binary_without_lookup_table(void **state)
     assert_non_null(strstr(err.msg, "line 9: LOOKUP_TABLE needs one name"));
 }
 
+/* Files re-saved by other VTK-based tools: a METADATA block after an array, and further
+ * arrays in a FIELD section (a 'fill' array read, a 3-component array skipped; the
+ * labels may also come as a FIELD array named 'labels'). */
+static void test_vtk_read_field_and_metadata(void **state)
+{
+    (void)state;
+    const char *ascii =
+        "# vtk DataFile Version 5.1\nvtk output\nASCII\nDATASET STRUCTURED_POINTS\n"
+        "DIMENSIONS 2 2 1\nSPACING 2e-9 2e-9 2e-9\nORIGIN 0 0 0\nPOINT_DATA 4\n"
+        "SCALARS labels unsigned_char\nLOOKUP_TABLE default\n0 3 4 5\n"
+        "METADATA\nINFORMATION 1\nNAME L2_NORM_RANGE LOCATION vtkDataArray\n"
+        "DATA 2 0 5\n\n"
+        "FIELD FieldData 2\nvelocity 3 4 double\n1 2 3 4 5 6 7 8 9 10 11 12\n"
+        "fill 1 4 float\n0 0.5 1 0.25\n";
+    dpz_grid *g = NULL;
+    dpz_err err;
+    dpz_status st = dpz_vtk_read(&g, ascii, strlen(ascii), "pv.vtk", 0, &err);
+    if (st != DPZ_OK)
+        print_error("%s\n", err.msg);
+    assert_int_equal(st, DPZ_OK);
+    assert_int_equal(g->label[dpz_grid_index(g, 1, 0, 0)], 3);
+    assert_int_equal(g->label[dpz_grid_index(g, 1, 1, 0)], 5);
+    assert_non_null(g->fill);
+    assert_true(g->fill[dpz_grid_index(g, 1, 0, 0)] == 0.5f);
+    assert_true(g->fill[dpz_grid_index(g, 1, 1, 0)] == 0.25f);
+    dpz_grid_destroy(g);
+    /* Labels as a FIELD array, binary, after an unrelated FIELD array. */
+    char bin[512];
+    int n =
+        sprintf(bin, "# vtk DataFile Version 3.0\nt\nBINARY\nDATASET STRUCTURED_POINTS\n"
+                     "DIMENSIONS 3 1 1\nSPACING 1 1 1\nORIGIN 0 0 0\nPOINT_DATA 3\n"
+                     "FIELD f 2\nid 1 3 short\n");
+    size_t len = (size_t)n;
+    memcpy(bin + len, "\0\1\0\2\0\3\n", 7);
+    len += 7;
+    n = sprintf(bin + len, "labels 1 3 unsigned_char\n");
+    len += (size_t)n;
+    memcpy(bin + len, "\x09\0\x0b\n", 4);
+    len += 4;
+    assert_int_equal(dpz_vtk_read(&g, bin, len, "f.vtk", 0, &err), DPZ_OK);
+    assert_int_equal(g->label[0], 9);
+    assert_int_equal(g->label[1], 0);
+    assert_int_equal(g->label[2], 11);
+    dpz_grid_destroy(g);
+    /* Malformed FIELD sections. */
+    const char *bad[] = {
+        "# vtk DataFile Version 3.0\nt\nASCII\nDATASET STRUCTURED_POINTS\n"
+        "DIMENSIONS 2 1 1\nSPACING 1 1 1\nPOINT_DATA 2\nFIELD f 1\nlabels 1 3 int\n1 2 "
+        "3\n",
+        "# vtk DataFile Version 3.0\nt\nASCII\nDATASET STRUCTURED_POINTS\n"
+        "DIMENSIONS 2 1 1\nSPACING 1 1 1\nPOINT_DATA 2\nFIELD f 2\nlabels 1 2 int\n1 2\n",
+        "# vtk DataFile Version 3.0\nt\nASCII\nDATASET STRUCTURED_POINTS\n"
+        "DIMENSIONS 2 1 1\nSPACING 1 1 1\nPOINT_DATA 2\nFIELD f\n",
+        "# vtk DataFile Version 3.0\nt\nASCII\nDATASET STRUCTURED_POINTS\n"
+        "DIMENSIONS 2 1 1\nSPACING 1 1 1\nPOINT_DATA 2\nFIELD f 1\nother 1 2 int\n1 2\n"};
+    const char *needle[] = {"line 9: FIELD array 'labels' has 3 tuples, 2 expected",
+                            "FIELD array 2 missing", "line 8: FIELD needs a name",
+                            "no label array"};
+    for (int q = 0; q < 4; q++) {
+        g = (dpz_grid *)&g;
+        assert_int_equal(dpz_vtk_read(&g, bad[q], strlen(bad[q]), "b.vtk", 0, &err),
+                         DPZ_EFORMAT);
+        assert_null(g);
+        if (!strstr(err.msg, needle[q]))
+            print_error("%s\n", err.msg);
+        assert_non_null(strstr(err.msg, needle[q]));
+    }
+}
+
 /* CELL_DATA: DIMENSIONS count points, voxels are the cells between them. */
 static void test_vtk_read_cell_data(void **state)
 {
@@ -1080,6 +1149,7 @@ int main(void)
         cmocka_unit_test(test_vtk_read_ascii_layout),
         cmocka_unit_test(test_vtk_read_binary_every_type),
         cmocka_unit_test(test_vtk_read_binary_without_lookup_table),
+        cmocka_unit_test(test_vtk_read_field_and_metadata),
         cmocka_unit_test(test_vtk_read_cell_data),
         cmocka_unit_test(test_vtk_rejects_malformed),
         cmocka_unit_test(test_vtk_rejects_truncated_binary),

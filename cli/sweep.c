@@ -26,6 +26,7 @@
 #include <dirent.h>
 
 #include "cli_int.h"
+#include "cli_limits.h"
 #include "dpz_sha256.h"
 #include "sweep_int.h"
 
@@ -823,6 +824,8 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     c->setup.grid = c->grid;
     c->setup.host_index = c->mat.host_index;
     if ((rc = cli_setup_options(a, &c->setup)) != CLI_OK)
+        return rc;
+    if ((rc = cli_limits_check(a, c->grid, &c->setup, CLI_WORK_SWEEP)) != CLI_OK)
         return rc;
     c->khat[0] = c->khat[1] = 0.0;
     c->khat[2] = 1.0;

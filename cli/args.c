@@ -161,6 +161,9 @@ int cli_flag(const cli_args *a, const char *name)
 /* Help text width: fits an 80-column terminal. */
 #define HELP_WIDTH 79
 #define HELP_INDENT 29
+/* Source lines at least this long that end in a single line break are hard-wrapped
+ * paragraph text. */
+#define HELP_SOFT_BREAK 70
 
 /* Prints `text` word-wrapped: the first line continues at column `col`, the others start
  * at column `indent`; existing line breaks are kept. */
@@ -168,8 +171,20 @@ static void wrap_print(FILE *f, const char *text, size_t col, size_t indent)
 {
     const char *p = text;
     size_t pending = 0; /* blanks typed before the next word, kept unless we wrap */
+    const char *line = text;
     while (*p) {
+        /* A line break after a long source line, followed by more text, was only a
+         * hard wrap of a paragraph: rewrap it. Short lines (tables), blank lines and
+         * indented lines keep their breaks. */
+        if (*p == '\n' && (size_t)(p - line) >= HELP_SOFT_BREAK && p[1] != '\0' &&
+            p[1] != '\n' && p[1] != ' ') {
+            line = p + 1;
+            pending++;
+            p++;
+            continue;
+        }
         if (*p == '\n') {
+            line = p + 1;
             fputc('\n', f);
             for (size_t i = 0; i < indent; i++)
                 fputc(' ', f);

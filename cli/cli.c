@@ -47,7 +47,7 @@ static const struct {
 static const cli_opt materials_opts[] = {
     {"--eps", "SPEC",
      "permittivity of every label, relative to vacuum: complex (2.25, -10+1i), "
-     "nk:FILE.csv or drude:... (see above)",
+     "nk:FILE.csv or drude:... (forms: dipolize tensor --help)",
      0},
     {"--material", "LABEL=SPEC",
      "permittivity of one label (1..255), same SPEC forms; every label of the grid needs "

@@ -72,24 +72,62 @@ dpz_status dpz_tblock_project(const dpz_grid *grid, const double origin[3], doub
     size_t cnt = dpz_vswf_count(nmax);
     double complex sq[DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
     double complex sp[DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
-    double complex M[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
-    double complex N[3 * DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
     memset(sq, 0, cnt * sizeof sq[0]);
     memset(sp, 0, cnt * sizeof sp[0]);
-    for (size_t v = 0; v < grid->n_occ; v++) {
-        double r[3];
-        rel_centre(grid, v, origin, r);
-        dpz_status st = dpz_vswf_eval(DPZ_VSWF_REGULAR, nmax, k, r, M, N, err);
-        if (st != DPZ_OK)
-            return st;
-        const double complex *pv = ptilde + 3 * v;
-        for (size_t i = 0; i < cnt; i++) {
-            sq[i] += conj(N[3 * i]) * pv[0] + conj(N[3 * i + 1]) * pv[1] +
-                     conj(N[3 * i + 2]) * pv[2];
-            sp[i] += conj(M[3 * i]) * pv[0] + conj(M[3 * i + 1]) * pv[1] +
-                     conj(M[3 * i + 2]) * pv[2];
+    int bad = 0;
+    /* Voxels are independent: each thread sums its share, then the partial sums are
+     * added in a critical section (the order of that addition varies between runs only in
+     * the last bits). */
+#pragma omp parallel
+    {
+        double complex lq[DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
+        double complex lp[DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
+        double complex M[3 * 3 * 5], N[3 * 3 * 5];
+        double complex *Mv = M, *Nv = N;
+        double complex *Mbig = NULL, *Nbig = NULL;
+        if (cnt > 15) {
+            Mbig = dpz__malloc(3 * cnt * sizeof *Mbig);
+            Nbig = dpz__malloc(3 * cnt * sizeof *Nbig);
+            Mv = Mbig;
+            Nv = Nbig;
         }
+        memset(lq, 0, cnt * sizeof lq[0]);
+        memset(lp, 0, cnt * sizeof lp[0]);
+        int lbad = (cnt > 15 && (!Mbig || !Nbig)) ? 2 : 0;
+#pragma omp for schedule(static)
+        for (size_t v = 0; v < grid->n_occ; v++) {
+            if (lbad)
+                continue;
+            double r[3];
+            rel_centre(grid, v, origin, r);
+            if (dpz_vswf_eval(DPZ_VSWF_REGULAR, nmax, k, r, Mv, Nv, NULL) != DPZ_OK) {
+                lbad = 1;
+                continue;
+            }
+            const double complex *pv = ptilde + 3 * v;
+            for (size_t i = 0; i < cnt; i++) {
+                lq[i] += conj(Nv[3 * i]) * pv[0] + conj(Nv[3 * i + 1]) * pv[1] +
+                         conj(Nv[3 * i + 2]) * pv[2];
+                lp[i] += conj(Mv[3 * i]) * pv[0] + conj(Mv[3 * i + 1]) * pv[1] +
+                         conj(Mv[3 * i + 2]) * pv[2];
+            }
+        }
+#pragma omp critical(dpz_tblock_project)
+        {
+            for (size_t i = 0; i < cnt; i++) {
+                sq[i] += lq[i];
+                sp[i] += lp[i];
+            }
+            if (lbad > bad)
+                bad = lbad;
+        }
+        dpz__free(Mbig);
+        dpz__free(Nbig);
     }
+    if (bad == 2)
+        return dpz_err_set(err, DPZ_ENOMEM, "T block: out of memory for the projection");
+    if (bad)
+        return dpz_err_set(err, DPZ_EINVAL, "T block: a voxel centre is not finite");
     /* q_mn = i k^3 sum conj(RgN_mn) . p~, p_mn = i k^3 sum conj(RgM_mn) . p~
      * (Green-dyadic expansion, Tsang, Kong & Ding 2000). */
     double complex f = I * k * k * k;

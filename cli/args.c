@@ -240,7 +240,25 @@ void cli_print_help(const cli_cmd *cmd, FILE *f)
         }
     }
     fprintf(f, "  %-26s %s\n", "--help", "this text");
-    fprintf(f, "\nExample:\n  %s\n", cmd->example);
+    /* The example as a shell command, continued with backslashes to fit the width. */
+    fputs("\nExample:\n  ", f);
+    size_t col = 2;
+    for (const char *p = cmd->example; *p;) {
+        size_t wl = strcspn(p, " ");
+        if (col > 2 && col + 1 + wl + 2 > HELP_WIDTH) {
+            fputs(" \\\n     ", f);
+            col = 5;
+        } else if (col > 2) {
+            fputc(' ', f);
+            col++;
+        }
+        fwrite(p, 1, wl, f);
+        col += wl;
+        p += wl;
+        while (*p == ' ')
+            p++;
+    }
+    fputc('\n', f);
 }
 
 void cli_progress(const cli_args *a, const char *fmt, ...)

@@ -42,9 +42,12 @@ typedef struct dpz_op_opts {
 /* ---- FFT operator ------------------------------------------------------------------ */
 typedef struct dpz_fftop dpz_fftop;
 
-/* Bytes the FFT operator for this grid will allocate (kernel transforms, padded buffers,
- * compact-vector scratch), computed before anything is allocated. */
+/* Bytes the FFT operator for this grid will allocate with one thread (kernel transform
+ * on the frequency octant, the z-transformed slab of 3 nx ny pz points, one plane buffer,
+ * per-voxel data), computed before anything is allocated. */
 size_t dpz_fftop_memory_need(const dpz_grid *grid);
+/* The same for `threads` threads (each thread has its own plane buffer). */
+size_t dpz_fftop_memory_need_threads(const dpz_grid *grid, int threads);
 
 /* Builds the operator for host wavenumber k (1/m; k = 0 gives the static kernel) and the
  * given prescription: the six Green-tensor components over all lattice offsets, embedded in

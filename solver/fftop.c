@@ -4,10 +4,32 @@
  * The interaction sum (G x)_r = sum_{r'} G(r - r') x_{r'} over a regular lattice is a
  * discrete convolution, evaluated as a circular convolution on a zero-padded grid of at
  * least 2n - 1 points per axis, which avoids wrap-around (Goodman, Draine & Flatau, Opt.
- * Lett. 16, 1198 (1991)). The six independent kernel components are transformed once at
- * creation; each apply does three forward and three inverse complex transforms (FFTW,
- * Frigo & Johnson, Proc. IEEE 93, 216 (2005)) and a 3x3 symmetric tensor product per
- * frequency. The kernel is complex for k > 0, so complex-to-complex transforms are used.
+ * Lett. 16, 1198 (1991)). Transforms by FFTW (Frigo & Johnson, Proc. IEEE 93, 216
+ * (2005)); the kernel is complex for k > 0, so the field transforms are complex.
+ *
+ * Layout of one apply (memory and cache are the limits, not arithmetic):
+ *  1. the three components of x are scattered into a "slab" of nx * ny lines of pz
+ *     points each (a quarter of the padded grid: only the lines that hold data) and
+ *     transformed along z;
+ *  2. for each small block of consecutive z frequencies, the nx x ny slices of the slab
+ *     are copied into a per-thread zero-padded px x py plane buffer, transformed along
+ *     y (only the nx rows that hold data) and x (all columns), multiplied by the 3x3
+ *     kernel tensor, transformed back along x and y, and the nx x ny part that is needed
+ *     is copied back into the slab;
+ *  3. the slab is transformed back along z and gathered.
+ * The work is that of the transforms pruned to the lines that hold data on the way in and
+ * the lines that are kept on the way out (about 7/12 of two full 3-D transforms for
+ * p = 2n), the memory a quarter of one padded grid per component, and each plane block is
+ * processed while it is in cache. Threads split the z lines and the plane blocks
+ * (OpenMP); every line and block is computed by the same sequence of operations whatever
+ * the thread count, so the result does not depend on it.
+ *
+ * The kernel is stored on the non-negative frequency octant only: each of the six tensor
+ * components is even or odd along each axis (G(-R) = G(R) and reflection symmetry), so
+ * its transform is too, and the octant transform is a product of real-to-real
+ * transforms of the half-sequences: a DCT-I along even axes and a DST-I along odd axes
+ * (FFTW's REDFT00 and RODFT00; see Frigo & Johnson 2005, sec. on real-even and
+ * real-odd DFTs). This avoids ever holding a full padded grid, also at creation.
  */
 #include "dpz_operator.h"
 
@@ -19,38 +41,51 @@
 
 #include "solver_int.h"
 
+/* Consecutive z frequencies processed together in one plane block: four complex numbers
+ * fill a 64-byte cache line of the slab, so the copies in and out use whole lines. */
+#define ZBLOCK 4
+/* Lines per z-transform call (a unit of work for the threads). */
+#define ZLINES 16
+
 struct dpz_fftop {
     const dpz_grid *grid; /* borrowed */
     size_t n_occ;         /* occupied voxels */
     size_t n[3];          /* grid dims */
-    size_t p[3];          /* padded dims */
+    size_t p[3];          /* padded dims: 1 when n = 1, else an even FFT-friendly >= 2n */
     size_t ptot;          /* p[0] p[1] p[2] */
-    size_t cstride;       /* distance between the three components in buf (>= ptot) */
-    size_t h[3];          /* stored kernel octant, h = p/2 + 1 per axis */
+    size_t h[3];          /* stored kernel octant, h = p/2 + 1 per axis (1 when p = 1) */
     size_t htot;          /* h[0] h[1] h[2] */
-    int threads;          /* OpenMP and FFTW threads */
-    double complex *kern; /* transformed kernel, 6 components xx xy xz yy yz zz over the
-                             non-negative frequency octant (6 htot), scaled by 1/ptot */
-    double complex *buf;  /* 3 cstride work grid, component-major */
-    size_t *refl;         /* per axis (offsets 0, p0, p0 + p1): folded frequency index */
-    signed char *sign;    /* per axis: +1, or -1 where the frequency was reflected */
-    size_t *pos;          /* n_occ padded linear indices of the occupied voxels */
+    size_t cs;            /* slab component stride, nx ny pz */
+    size_t zb;            /* z frequencies per plane block (<= ZBLOCK) */
+    size_t ps;            /* plane buffer component stride, px py zb */
+    size_t pt;            /* plane buffer stride between threads, >= 3 ps */
+    int threads;          /* OpenMP threads */
+    double complex
+        *kern;            /* transformed kernel over the octant, [a][b][c][m] with the six
+                             components m = xx xy xz yy yz zz innermost, scaled by 1/ptot */
+    double complex *slab; /* 3 cs: [comp][i < nx][j < ny][c < pz] */
+    double complex *plane; /* threads x 3 ps: per thread [comp][a][b][t < zb] */
+    size_t *refl;          /* per axis (offsets 0, p0, p0 + p1): folded frequency index */
+    signed char *sign;     /* per axis: +1, or -1 where the frequency was reflected */
+    size_t *pos;           /* n_occ slab indices of the occupied voxels */
     double complex *inv_alpha; /* n_occ, m^-3 */
     double complex *diag3;     /* 3 n_occ, the diagonal for Jacobi preconditioning */
-    /* Pruned transforms (three 1-D passes each way, skipping lines that are known to be
-     * zero on input or not needed on output). */
-    fftw_plan fz, fy, fx, bx, by, bz;
+    /* z passes on ZLINES lines and on the remainder; plane passes for a full block of zb
+     * frequencies and for the remainder pz mod zb (index 0 full, 1 remainder). */
+    fftw_plan fz[2], bz[2], fy[2], fx[2], bx[2], by[2];
+    size_t zlines_rem, zb_rem;
 };
 
 /* ---- sizes and memory
  * ------------------------------------------------------------------ */
 
-/* Smallest m >= n whose only prime factors are 2, 3, 5, 7 (sizes FFTW handles with its
- * fastest codelets; common practice). */
-static size_t fft_friendly(size_t n)
+/* Smallest even m >= n whose only prime factors are 2, 3, 5, 7 (sizes FFTW handles with
+ * its fastest codelets; common practice). Even sizes let the kernel octant be
+ * transformed by DCT-I/DST-I of length p/2 + 1 and p/2 - 1. */
+static size_t fft_friendly_even(size_t n)
 {
     static const size_t f[] = {2, 3, 5, 7};
-    for (size_t m = n > 1 ? n : 1;; m++) {
+    for (size_t m = n > 2 ? n + (n & 1) : 2;; m += 2) {
         size_t r = m;
         for (int i = 0; i < 4; i++)
             while (r % f[i] == 0)
@@ -61,7 +96,7 @@ static size_t fft_friendly(size_t n)
 }
 
 typedef struct layout {
-    size_t p[3], ptot, cstride, h[3], htot;
+    size_t p[3], ptot, h[3], htot, cs, zb, ps, pt;
 } layout;
 
 static int make_layout(const dpz_grid *g, layout *L)
@@ -70,33 +105,45 @@ static int make_layout(const dpz_grid *g, layout *L)
     for (int a = 0; a < 3; a++) {
         if (n[a] > ((size_t)1 << 28))
             return -1;
-        L->p[a] = fft_friendly(2 * n[a] - 1);
-        L->h[a] = L->p[a] / 2 + 1;
+        /* A single layer needs no padding: the only offset along that axis is 0. */
+        L->p[a] = n[a] == 1 ? 1 : fft_friendly_even(2 * n[a]);
+        L->h[a] = L->p[a] == 1 ? 1 : L->p[a] / 2 + 1;
     }
-    /* At most 2^40 padded points (16 TiB per component) keeps every index product far
-     * from overflow; strides are passed to FFTW's 64-bit interface. */
+    /* At most 2^40 padded points keeps every index product far from overflow; strides
+     * are passed to FFTW's 64-bit interface. */
     if (dpz_mul_overflow(L->p[0], L->p[1], &L->ptot) ||
         dpz_mul_overflow(L->ptot, L->p[2], &L->ptot) || L->ptot > ((size_t)1 << 40))
         return -1;
-    /* Components start on 128-byte boundaries, so each is aligned like the buffer. */
-    L->cstride = (L->ptot + 7) / 8 * 8;
     L->htot = L->h[0] * L->h[1] * L->h[2];
+    L->cs = n[0] * n[1] * L->p[2];
+    L->zb = L->p[2] < ZBLOCK ? L->p[2] : ZBLOCK;
+    L->ps = L->p[0] * L->p[1] * L->zb;
+    /* Each thread's buffer starts on a 128-byte boundary, aligned like the first one
+     * (FFTW's new-array execute needs the alignment the plan was made with). */
+    L->pt = (3 * L->ps + 7) / 8 * 8;
     return 0;
+}
+
+static size_t memory_need(const dpz_grid *grid, const layout *L, size_t threads)
+{
+    size_t axes = L->p[0] + L->p[1] + L->p[2];
+    return sizeof(struct dpz_fftop) +
+           (3 * L->cs + threads * L->pt + 6 * L->htot) * sizeof(double complex) +
+           axes * (sizeof(size_t) + 1) +
+           grid->n_occ * (sizeof(size_t) + 4 * sizeof(double complex));
 }
 
 size_t dpz_fftop_memory_need(const dpz_grid *grid)
 {
+    return dpz_fftop_memory_need_threads(grid, 1);
+}
+
+size_t dpz_fftop_memory_need_threads(const dpz_grid *grid, int threads)
+{
     layout L;
     if (!grid || grid->nx == 0 || grid->ny == 0 || grid->nz == 0 || make_layout(grid, &L))
         return 0;
-    /* Three padded work components, six kernel components on the frequency octant, the
-     * folding tables, and per voxel its position, 1/alpha and the 3-component diagonal.
-     * FFTW's own plan data come on top (small). */
-    size_t axes = L.p[0] + L.p[1] + L.p[2];
-    return sizeof(struct dpz_fftop) +
-           (3 * L.cstride + 6 * L.htot) * sizeof(double complex) +
-           axes * (sizeof(size_t) + 1) +
-           grid->n_occ * (sizeof(size_t) + 4 * sizeof(double complex));
+    return memory_need(grid, &L, threads > 0 ? (size_t)threads : 1);
 }
 
 /* ---- FFTW set-up ---------------------------------------------------------------------
@@ -116,7 +163,8 @@ static unsigned plan_flags(dpz_plan plan)
     }
 }
 
-/* fftw_init_threads must run once before any threaded planning; FFTW's planner is not
+/* fftw_init_threads must run once before any threaded planning (callers such as the
+ * benchmarks may plan threaded transforms of their own); FFTW's planner is not
  * thread-safe, so operators are created from one thread (documented in the header). */
 static int fftw_threads_ready = 0;
 
@@ -138,12 +186,16 @@ void dpz_fftop_destroy(dpz_fftop *op)
 {
     if (!op)
         return;
-    fftw_plan plans[6] = {op->fz, op->fy, op->fx, op->bx, op->by, op->bz};
-    for (int i = 0; i < 6; i++)
-        if (plans[i])
-            fftw_destroy_plan(plans[i]);
+    for (int i = 0; i < 2; i++) {
+        fftw_plan plans[6] = {op->fz[i], op->bz[i], op->fy[i],
+                              op->fx[i], op->bx[i], op->by[i]};
+        for (int j = 0; j < 6; j++)
+            if (plans[j])
+                fftw_destroy_plan(plans[j]);
+    }
     fftw_free(op->kern);
-    fftw_free(op->buf);
+    fftw_free(op->slab);
+    fftw_free(op->plane);
     dpz__free(op->refl);
     dpz__free(op->sign);
     dpz__free(op->pos);
@@ -170,108 +222,123 @@ dpz_status dpz_fftop_set_diag(dpz_fftop *op, const double complex *inv_alpha,
     return DPZ_OK;
 }
 
-/* One 1-D pass of length p[axis] over the three components of buf, restricted to the
- * lines whose indices along the other axes are below `lim` (lim[a] = p[a] for no
- * restriction). Axes are 0 (x, slowest) .. 2 (z, fastest). The 64-bit guru interface lets
- * FFTW loop over the components and lines (and thread that loop) with strides beyond
- * 2^31. */
-static fftw_plan plan_pass(dpz_fftop *op, int axis, const size_t lim[3], int dir,
-                           unsigned flags)
+/* z pass: `lines` consecutive slab lines of pz points (in place). */
+static fftw_plan plan_z(dpz_fftop *op, size_t lines, int dir, unsigned flags)
 {
-    const size_t *p = op->p;
-    const ptrdiff_t stride[3] = {(ptrdiff_t)(p[1] * p[2]), (ptrdiff_t)p[2], 1};
-    fftw_iodim64 dim = {(ptrdiff_t)p[axis], stride[axis], stride[axis]};
-    fftw_iodim64 how[3];
-    int nh = 0;
-    how[nh++] = (fftw_iodim64){3, (ptrdiff_t)op->cstride, (ptrdiff_t)op->cstride};
-    for (int a = 0; a < 3; a++)
-        if (a != axis)
-            how[nh++] = (fftw_iodim64){(ptrdiff_t)lim[a], stride[a], stride[a]};
-    fftw_complex *b = (fftw_complex *)op->buf;
-    return fftw_plan_guru64_dft(1, &dim, nh, how, b, b, dir, flags);
+    fftw_iodim64 dim = {(ptrdiff_t)op->p[2], 1, 1};
+    fftw_iodim64 how = {(ptrdiff_t)lines, (ptrdiff_t)op->p[2], (ptrdiff_t)op->p[2]};
+    fftw_complex *b = (fftw_complex *)op->slab;
+    return fftw_plan_guru64_dft(1, &dim, 1, &how, b, b, dir, flags);
 }
 
-/* Writes the kernel for every lattice offset into component c of buf (offset o at index
- * o mod p, so the circular convolution reproduces the linear one). Each component is even
- * or odd under each axis reflection (G(-R) = G(R) and the reflection symmetry of the cube
- * average), so the kernel is evaluated on the non-negative octant only and reflected.
- * m0 is the first of the three tensor components written (0: xx xy xz, 3: yy yz zz). */
+/* Plane pass along `axis` (0: x over all py columns, 1: y over the nx rows that hold
+ * data) for the three components and `nt` frequencies of a block, in place in the
+ * first thread's plane buffer (the others are executed with fftw_execute_dft). */
+static fftw_plan plan_plane(dpz_fftop *op, int axis, size_t nt, int dir, unsigned flags)
+{
+    const size_t *p = op->p, zb = op->zb;
+    ptrdiff_t sx = (ptrdiff_t)(p[1] * zb), sy = (ptrdiff_t)zb;
+    fftw_iodim64 dim, how[3];
+    if (axis == 0) {
+        dim = (fftw_iodim64){(ptrdiff_t)p[0], sx, sx};
+        how[1] = (fftw_iodim64){(ptrdiff_t)p[1], sy, sy};
+    } else {
+        dim = (fftw_iodim64){(ptrdiff_t)p[1], sy, sy};
+        how[1] = (fftw_iodim64){(ptrdiff_t)op->n[0], sx, sx};
+    }
+    how[0] = (fftw_iodim64){3, (ptrdiff_t)op->ps, (ptrdiff_t)op->ps};
+    how[2] = (fftw_iodim64){(ptrdiff_t)nt, 1, 1};
+    fftw_complex *b = (fftw_complex *)op->plane;
+    return fftw_plan_guru64_dft(1, &dim, 3, how, b, b, dir, flags);
+}
+
+/* Writes the kernel (scaled later) for every lattice offset 0 <= (i, j, l) < n into the
+ * octant array; larger offsets up to p/2 are the zero padding. Component m = (a, b)
+ * changes sign as s_a s_b under the axis reflections s, so the octant determines it. */
 static void fill_kernel(dpz_fftop *op, double k, dpz_dipole_model model,
-                        const dpz__igt_table *tab, int m0)
+                        const dpz__igt_table *tab)
 {
     const dpz_grid *g = op->grid;
-    size_t px = op->p[0], py = op->p[1], pz = op->p[2], cs = op->cstride;
-    double complex *buf = op->buf;
-    /* Component m = (a, b) changes sign as s_a s_b under the reflections s. */
-    static const int ca[6] = {0, 0, 0, 1, 1, 2}, cb[6] = {0, 1, 2, 1, 2, 2};
+    const size_t *h = op->h;
+    double complex *K = op->kern;
     long nx = (long)g->nx, ny = (long)g->ny, nz = (long)g->nz;
 #pragma omp parallel for num_threads(op->threads) schedule(dynamic)
-    for (long i = 0; i < nx; i++) {
-        for (long j = 0; j < ny; j++) {
+    for (long i = 0; i < nx; i++)
+        for (long j = 0; j < ny; j++)
             for (long l = 0; l < nz; l++) {
                 double complex gv[6] = {0};
                 if (i != 0 || j != 0 || l != 0)
                     dpz__kernel_tab(model, k, g->d, tab, i, j, l, gv);
-                for (int s = 0; s < 8; s++) {
-                    int sg[3] = {s & 1 ? -1 : 1, s & 2 ? -1 : 1, s & 4 ? -1 : 1};
-                    if ((sg[0] < 0 && i == 0) || (sg[1] < 0 && j == 0) ||
-                        (sg[2] < 0 && l == 0))
-                        continue;
-                    size_t a = (size_t)(sg[0] < 0 ? (long)px - i : i);
-                    size_t b = (size_t)(sg[1] < 0 ? (long)py - j : j);
-                    size_t c = (size_t)(sg[2] < 0 ? (long)pz - l : l);
-                    size_t q = (a * py + b) * pz + c;
-                    for (int m = m0; m < m0 + 3; m++)
-                        buf[(size_t)(m - m0) * cs + q] = sg[ca[m]] * sg[cb[m]] * gv[m];
-                }
+                /* Components odd along an axis vanish on the plane where that offset is 0
+                 * (by the reflection symmetry; a quadrature may leave rounding there). */
+                if (i == 0)
+                    gv[1] = gv[2] = 0.0;
+                if (j == 0)
+                    gv[1] = gv[4] = 0.0;
+                if (l == 0)
+                    gv[2] = gv[4] = 0.0;
+                double complex *dst =
+                    K + (((size_t)i * h[1] + (size_t)j) * h[2] + (size_t)l) * 6;
+                for (int m = 0; m < 6; m++)
+                    dst[m] = gv[m];
             }
-        }
-    }
 }
 
-/* Transforms the kernel (three components at a time, in buf) with a full 3-D transform
- * and keeps the non-negative frequency octant: the transform of a sequence that is even
- * (odd) under a circular axis reflection is even (odd) under the same reflection, so the
- * octant determines the rest. */
-static dpz_status transform_kernel(dpz_fftop *op, double k, dpz_dipole_model model,
-                                   dpz_err *err)
+/* Transforms the kernel octant in place, one component at a time: the DFT of a sequence
+ * of even length p that is even about 0 (g[p - q] = g[q]) is, on 0 <= q <= p/2, the DCT-I
+ * of g[0..p/2] (FFTW REDFT00: Y_k = X_0 + (-1)^k X_{N-1} + 2 sum_{j=1}^{N-2} X_j
+ * cos(pi j k / (N - 1)), N = p/2 + 1); for an odd sequence it is -i times the DST-I of
+ * g[1..p/2-1] (RODFT00: Y_k = 2 sum_{j=0}^{N-1} X_j sin(pi (j+1)(k+1) / (N+1)),
+ * N = p/2 - 1), and 0 at q = 0 and p/2. Real and imaginary parts are transformed alike
+ * (the transforms are real-linear). The off-diagonal components are odd along two axes,
+ * so they pick up (-i)^2 = -1. */
+static dpz_status transform_kernel(dpz_fftop *op, dpz_err *err)
 {
+    static const int ca[6] = {0, 0, 0, 1, 1, 2}, cb[6] = {0, 1, 2, 1, 2, 2};
     const size_t *p = op->p, *h = op->h;
-    size_t cs = op->cstride, ptot = op->ptot;
-    const ptrdiff_t pyz = (ptrdiff_t)(p[1] * p[2]);
-    fftw_iodim64 dims[3] = {{(ptrdiff_t)p[0], pyz, pyz},
-                            {(ptrdiff_t)p[1], (ptrdiff_t)p[2], (ptrdiff_t)p[2]},
-                            {(ptrdiff_t)p[2], 1, 1}};
-    fftw_iodim64 comp = {3, (ptrdiff_t)cs, (ptrdiff_t)cs};
-    fftw_complex *b = (fftw_complex *)op->buf;
-    fftw_plan full =
-        fftw_plan_guru64_dft(3, dims, 1, &comp, b, b, FFTW_FORWARD, FFTW_ESTIMATE);
-    if (!full)
-        return dpz_err_set(err, DPZ_EFFTW,
-                           "FFT operator: FFTW could not plan the kernel "
-                           "transform");
-    dpz__igt_table tab;
-    if (model == DPZ_DIPOLE_IGT)
-        dpz__igt_table_fill(&tab, k, op->grid->d);
-    /* FFTW's transforms are unnormalized: forward then backward multiplies by ptot. The
-     * single normalization 1/ptot of the whole operator is folded into the kernel here.
-     */
-    double scale = 1.0 / (double)ptot;
-    for (int m0 = 0; m0 < 6; m0 += 3) {
-        memset(op->buf, 0, 3 * cs * sizeof *op->buf);
-        fill_kernel(op, k, model, model == DPZ_DIPOLE_IGT ? &tab : NULL, m0);
-        fftw_execute(full);
-        for (int c = 0; c < 3; c++) {
-            double complex *dst = op->kern + (size_t)(m0 + c) * op->htot;
-            const double complex *src = op->buf + (size_t)c * cs;
-            for (size_t a = 0; a < h[0]; a++)
-                for (size_t bb = 0; bb < h[1]; bb++)
-                    for (size_t cc = 0; cc < h[2]; cc++)
-                        dst[(a * h[1] + bb) * h[2] + cc] =
-                            scale * src[(a * p[1] + bb) * p[2] + cc];
+    const ptrdiff_t stride[3] = {(ptrdiff_t)(h[1] * h[2] * 12), (ptrdiff_t)(h[2] * 12),
+                                 12}; /* in doubles */
+    double *base = (double *)op->kern;
+    for (int m = 0; m < 6; m++) {
+        fftw_iodim64 dims[3];
+        fftw_r2r_kind kinds[3];
+        int rank = 0, empty = 0;
+        ptrdiff_t off = 2 * m;
+        for (int a = 0; a < 3; a++) {
+            if (p[a] == 1)
+                continue; /* length-1 transform: identity (odd components vanish) */
+            int odd = (ca[m] == a) != (cb[m] == a);
+            if (odd && h[a] < 3) {
+                empty = 1;
+                break;
+            }
+            dims[rank] =
+                (fftw_iodim64){(ptrdiff_t)(odd ? h[a] - 2 : h[a]), stride[a], stride[a]};
+            kinds[rank] = odd ? FFTW_RODFT00 : FFTW_REDFT00;
+            if (odd)
+                off += stride[a];
+            rank++;
         }
+        if (empty || rank == 0)
+            continue; /* nothing to transform (the component is zero or constant) */
+        fftw_iodim64 reim = {2, 1, 1};
+        double *d = base + off;
+        fftw_plan pl =
+            fftw_plan_guru64_r2r(rank, dims, 1, &reim, d, d, kinds, FFTW_ESTIMATE);
+        if (!pl)
+            return dpz_err_set(err, DPZ_EFFTW,
+                               "FFT operator: FFTW could not plan the kernel transform");
+        fftw_execute(pl);
+        fftw_destroy_plan(pl);
     }
-    fftw_destroy_plan(full);
+    /* FFTW's transforms are unnormalized: forward then backward multiplies by ptot. The
+     * single normalization 1/ptot of the whole operator is folded into the kernel here,
+     * with the sign -1 of the off-diagonal components. */
+    double scale = 1.0 / (double)op->ptot;
+    const double sgn[6] = {scale, -scale, -scale, scale, -scale, scale};
+    for (size_t q = 0; q < op->htot; q++)
+        for (int m = 0; m < 6; m++)
+            op->kern[6 * q + m] *= sgn[m];
     return DPZ_OK;
 }
 
@@ -312,36 +379,42 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
     memcpy(op->p, L.p, sizeof L.p);
     memcpy(op->h, L.h, sizeof L.h);
     op->ptot = L.ptot;
-    op->cstride = L.cstride;
     op->htot = L.htot;
+    op->cs = L.cs;
+    op->zb = L.zb;
+    op->ps = L.ps;
+    op->pt = L.pt;
     op->threads = opts && opts->threads > 0 ? opts->threads : 1;
     size_t axes = L.p[0] + L.p[1] + L.p[2];
     op->kern = fft_alloc(6 * L.htot);
-    op->buf = fft_alloc(3 * L.cstride);
+    op->slab = fft_alloc(3 * L.cs);
+    op->plane = fft_alloc((size_t)op->threads * L.pt);
     op->refl = dpz__calloc(axes, sizeof *op->refl);
     op->sign = dpz__calloc(axes, sizeof *op->sign);
     op->pos = dpz__calloc(grid->n_occ, sizeof *op->pos);
     op->inv_alpha = dpz__calloc(grid->n_occ, sizeof *op->inv_alpha);
     op->diag3 = dpz__calloc(3 * grid->n_occ, sizeof *op->diag3);
-    if (!op->kern || !op->buf || !op->refl || !op->sign || !op->pos || !op->inv_alpha ||
-        !op->diag3) {
+    if (!op->kern || !op->slab || !op->plane || !op->refl || !op->sign || !op->pos ||
+        !op->inv_alpha || !op->diag3) {
         dpz_fftop_destroy(op);
         return dpz_err_set(
             err, DPZ_ENOMEM,
             "FFT operator: out of memory (%zu bytes needed for a %zu x %zu x "
             "%zu padded grid)",
-            dpz_fftop_memory_need(grid), L.p[0], L.p[1], L.p[2]);
+            memory_need(grid, &L,
+                        (size_t)(opts && opts->threads > 0 ? opts->threads : 1)),
+            L.p[0], L.p[1], L.p[2]);
     }
     dpz_status st = dpz_fftop_set_diag(op, inv_alpha, err);
     if (st != DPZ_OK) {
         dpz_fftop_destroy(op);
         return st;
     }
-    size_t ny = grid->ny, nz = grid->nz;
+    size_t nz = grid->nz;
     for (size_t v = 0; v < grid->n_occ; v++) {
         size_t iv = grid->occ[v];
-        size_t a = iv / (ny * nz), b = iv / nz % ny, c = iv % nz;
-        op->pos[v] = (a * L.p[1] + b) * L.p[2] + c;
+        /* Slab line (i, j) holds voxel column (i, j, 0..nz) at its start. */
+        op->pos[v] = iv / nz * L.p[2] + iv % nz;
     }
     /* Frequency folding: index q and p - q share the stored octant entry; components odd
      * along the axis change sign on the upper half. */
@@ -352,7 +425,8 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
             op->sign[off + q] = up ? -1 : 1;
         }
 
-    /* Plan first: a measuring planner overwrites the arrays it plans on. */
+    /* Plan first: a measuring planner overwrites the arrays it plans on. Each plan is
+     * single-threaded: the operator distributes lines and blocks over its threads. */
     if (!fftw_threads_ready) {
         if (!fftw_init_threads()) {
             dpz_fftop_destroy(op);
@@ -360,30 +434,40 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
         }
         fftw_threads_ready = 1;
     }
-    fftw_plan_with_nthreads(op->threads);
+    fftw_plan_with_nthreads(1);
     unsigned flags = plan_flags(opts ? opts->plan : DPZ_PLAN_ESTIMATE);
-    /* Forward: the input is zero outside i < nx, j < ny, k < nz. Transform along z only
-     * the lines with i < nx, j < ny; along y only the planes i < nx; along x everything.
-     * Backward: only outputs with i < nx, j < ny, k < nz are read, so the passes run in
-     * the opposite order with the same restrictions. About 7/12 of the work of two full
-     * 3-D transforms for p = 2n. */
-    const size_t *p = L.p, *n = op->n;
-    const size_t lim_z[3] = {n[0], n[1], p[2]}, lim_y[3] = {n[0], p[1], p[2]},
-                 lim_x[3] = {p[0], p[1], p[2]};
-    op->fz = plan_pass(op, 2, lim_z, FFTW_FORWARD, flags);
-    op->fy = plan_pass(op, 1, lim_y, FFTW_FORWARD, flags);
-    op->fx = plan_pass(op, 0, lim_x, FFTW_FORWARD, flags);
-    op->bx = plan_pass(op, 0, lim_x, FFTW_BACKWARD, flags);
-    op->by = plan_pass(op, 1, lim_y, FFTW_BACKWARD, flags);
-    op->bz = plan_pass(op, 2, lim_z, FFTW_BACKWARD, flags);
-    if (!op->fz || !op->fy || !op->fx || !op->bx || !op->by || !op->bz) {
+    size_t nlines = 3 * L.cs / L.p[2];
+    size_t zl = nlines < ZLINES ? nlines : ZLINES;
+    op->zlines_rem = nlines % zl;
+    op->zb_rem = L.p[2] % L.zb;
+    int ok = 1;
+    for (int i = 0; i < 2 && ok; i++) {
+        if (L.p[2] > 1 && (i == 0 || op->zlines_rem)) {
+            size_t cnt = i == 0 ? zl : op->zlines_rem;
+            ok = (op->fz[i] = plan_z(op, cnt, FFTW_FORWARD, flags)) &&
+                 (op->bz[i] = plan_z(op, cnt, FFTW_BACKWARD, flags));
+        }
+        if (ok && (i == 0 || op->zb_rem)) {
+            size_t nt = i == 0 ? L.zb : op->zb_rem;
+            ok = (op->fy[i] = plan_plane(op, 1, nt, FFTW_FORWARD, flags)) &&
+                 (op->fx[i] = plan_plane(op, 0, nt, FFTW_FORWARD, flags)) &&
+                 (op->bx[i] = plan_plane(op, 0, nt, FFTW_BACKWARD, flags)) &&
+                 (op->by[i] = plan_plane(op, 1, nt, FFTW_BACKWARD, flags));
+        }
+    }
+    if (!ok) {
         dpz_fftop_destroy(op);
         return dpz_err_set(
             err, DPZ_EFFTW,
-            "FFT operator: FFTW could not plan a %zu x %zu x %zu transform", p[0], p[1],
-            p[2]);
+            "FFT operator: FFTW could not plan a %zu x %zu x %zu transform", L.p[0],
+            L.p[1], L.p[2]);
     }
-    st = transform_kernel(op, k, model, err);
+    memset(op->kern, 0, 6 * L.htot * sizeof *op->kern);
+    dpz__igt_table tab;
+    if (model == DPZ_DIPOLE_IGT)
+        dpz__igt_table_fill(&tab, k, grid->d);
+    fill_kernel(op, k, model, model == DPZ_DIPOLE_IGT ? &tab : NULL);
+    st = transform_kernel(op, err);
     if (st != DPZ_OK) {
         dpz_fftop_destroy(op);
         return st;
@@ -392,60 +476,121 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
     return DPZ_OK;
 }
 
-/* Computes buf <- G x on the padded grid (components at pos[]). */
-static void convolve(dpz_fftop *op, const double complex *x)
+/* The z pass over the whole slab, split into chunks of ZLINES lines among the threads. */
+static void pass_z(dpz_fftop *op, fftw_plan *pl)
 {
-    size_t cs = op->cstride, n = op->n_occ;
-    double complex *b0 = op->buf, *b1 = op->buf + cs, *b2 = op->buf + 2 * cs;
-    const size_t *pos = op->pos;
-    long nb = (long)(3 * cs);
-    double complex *buf = op->buf;
-#pragma omp parallel num_threads(op->threads)
-    {
-#pragma omp for schedule(static)
-        for (long q = 0; q < nb; q++)
-            buf[q] = 0.0;
-#pragma omp for schedule(static)
-        for (long v = 0; v < (long)n; v++) {
-            b0[pos[v]] = x[3 * v];
-            b1[pos[v]] = x[3 * v + 1];
-            b2[pos[v]] = x[3 * v + 2];
-        }
+    if (op->p[2] == 1)
+        return;
+    size_t pz = op->p[2], nlines = 3 * op->cs / pz;
+    size_t zl = nlines < ZLINES ? nlines : ZLINES;
+    long nchunks = (long)(nlines / zl);
+    fftw_complex *s = (fftw_complex *)op->slab;
+#pragma omp parallel for num_threads(op->threads) schedule(static)
+    for (long c = 0; c < nchunks; c++)
+        fftw_execute_dft(pl[0], s + (size_t)c * zl * pz, s + (size_t)c * zl * pz);
+    if (op->zlines_rem) {
+        fftw_complex *r = s + (size_t)nchunks * zl * pz;
+        fftw_execute_dft(pl[1], r, r);
     }
-    fftw_execute(op->fz);
-    fftw_execute(op->fy);
-    fftw_execute(op->fx);
+}
+
+/* Step 2 of the apply for the block of nt z frequencies starting at c0, in the plane
+ * buffer P of one thread; `rem` selects the remainder plans. */
+static void plane_block(dpz_fftop *op, double complex *P, size_t c0, size_t nt, int rem)
+{
+    const size_t *n = op->n, *p = op->p, *h = op->h;
+    size_t zb = op->zb, ps = op->ps, pz = p[2], cs = op->cs;
+    size_t rowlen = p[1] * zb; /* one x row of the plane */
+    /* Copy in, zero padding in y and the rows nx..px. */
+    for (int c = 0; c < 3; c++) {
+        double complex *Pc = P + (size_t)c * ps;
+        const double complex *Sc = op->slab + (size_t)c * cs;
+        for (size_t a = 0; a < n[0]; a++) {
+            double complex *row = Pc + a * rowlen;
+            for (size_t b = 0; b < n[1]; b++) {
+                const double complex *src = Sc + (a * n[1] + b) * pz + c0;
+                for (size_t t = 0; t < nt; t++)
+                    row[b * zb + t] = src[t];
+            }
+            memset(row + n[1] * zb, 0, (p[1] - n[1]) * zb * sizeof *row);
+        }
+        memset(Pc + n[0] * rowlen, 0, (p[0] - n[0]) * rowlen * sizeof *Pc);
+    }
+    fftw_complex *f = (fftw_complex *)P;
+    fftw_execute_dft(op->fy[rem], f, f);
+    fftw_execute_dft(op->fx[rem], f, f);
     /* 3x3 symmetric tensor product per frequency; the kernel is stored on the octant and
      * unfolded with the parity of each component (xy odd in x and y, and so on). */
-    const size_t *p = op->p, *h = op->h;
     const size_t *rx = op->refl, *ry = op->refl + p[0], *rz = op->refl + p[0] + p[1];
     const signed char *sx = op->sign, *sy = op->sign + p[0], *sz = op->sign + p[0] + p[1];
     const double complex *K = op->kern;
-    size_t ht = op->htot;
-    long pxy = (long)(p[0] * p[1]);
-#pragma omp parallel for num_threads(op->threads) schedule(static)
-    for (long ab = 0; ab < pxy; ab++) {
-        size_t a = (size_t)ab / p[1], b = (size_t)ab % p[1];
-        size_t row = (rx[a] * h[1] + ry[b]) * h[2];
-        double sab = sx[a] * sy[b];
-        size_t q0 = (size_t)ab * p[2];
-        for (size_t c = 0; c < p[2]; c++) {
-            size_t kq = row + rz[c];
-            double sac = sx[a] * sz[c], sbc = sy[b] * sz[c];
-            double complex gxx = K[kq], gxy = sab * K[ht + kq],
-                           gxz = sac * K[2 * ht + kq];
-            double complex gyy = K[3 * ht + kq], gyz = sbc * K[4 * ht + kq],
-                           gzz = K[5 * ht + kq];
-            size_t q = q0 + c;
-            double complex X = b0[q], Y = b1[q], Z = b2[q];
-            b0[q] = gxx * X + gxy * Y + gxz * Z;
-            b1[q] = gxy * X + gyy * Y + gyz * Z;
-            b2[q] = gxz * X + gyz * Y + gzz * Z;
+    double complex *b0 = P, *b1 = P + ps, *b2 = P + 2 * ps;
+    for (size_t a = 0; a < p[0]; a++)
+        for (size_t b = 0; b < p[1]; b++) {
+            size_t row = (rx[a] * h[1] + ry[b]) * h[2];
+            double sab = sx[a] * sy[b];
+            size_t q0 = a * rowlen + b * zb;
+            for (size_t t = 0; t < nt; t++) {
+                size_t c = c0 + t;
+                const double complex *k6 = K + 6 * (row + rz[c]);
+                double sac = sx[a] * sz[c], sbc = sy[b] * sz[c];
+                double complex gxx = k6[0], gxy = sab * k6[1], gxz = sac * k6[2];
+                double complex gyy = k6[3], gyz = sbc * k6[4], gzz = k6[5];
+                size_t q = q0 + t;
+                double complex X = b0[q], Y = b1[q], Z = b2[q];
+                b0[q] = gxx * X + gxy * Y + gxz * Z;
+                b1[q] = gxy * X + gyy * Y + gyz * Z;
+                b2[q] = gxz * X + gyz * Y + gzz * Z;
+            }
+        }
+    fftw_execute_dft(op->bx[rem], f, f);
+    fftw_execute_dft(op->by[rem], f, f);
+    for (int c = 0; c < 3; c++) {
+        const double complex *Pc = P + (size_t)c * ps;
+        double complex *Sc = op->slab + (size_t)c * cs;
+        for (size_t a = 0; a < n[0]; a++)
+            for (size_t b = 0; b < n[1]; b++) {
+                double complex *dst = Sc + (a * n[1] + b) * pz + c0;
+                const double complex *src = Pc + a * rowlen + b * zb;
+                for (size_t t = 0; t < nt; t++)
+                    dst[t] = src[t];
+            }
+    }
+}
+
+/* Computes the slab <- G x (components at pos[]). */
+static void convolve(dpz_fftop *op, const double complex *x)
+{
+    size_t cs = op->cs, n = op->n_occ;
+    double complex *s0 = op->slab, *s1 = op->slab + cs, *s2 = op->slab + 2 * cs;
+    const size_t *pos = op->pos;
+    long ns = (long)(3 * cs);
+    double complex *slab = op->slab;
+#pragma omp parallel num_threads(op->threads)
+    {
+#pragma omp for schedule(static)
+        for (long q = 0; q < ns; q++)
+            slab[q] = 0.0;
+#pragma omp for schedule(static)
+        for (long v = 0; v < (long)n; v++) {
+            s0[pos[v]] = x[3 * v];
+            s1[pos[v]] = x[3 * v + 1];
+            s2[pos[v]] = x[3 * v + 2];
         }
     }
-    fftw_execute(op->bx);
-    fftw_execute(op->by);
-    fftw_execute(op->bz);
+    pass_z(op, op->fz);
+    size_t pz = op->p[2], zb = op->zb;
+    long nfull = (long)(pz / zb);
+#pragma omp parallel num_threads(op->threads)
+    {
+        double complex *P = op->plane + (size_t)omp_get_thread_num() * op->pt;
+#pragma omp for schedule(static)
+        for (long blk = 0; blk < nfull; blk++)
+            plane_block(op, P, (size_t)blk * zb, zb, 0);
+    }
+    if (op->zb_rem)
+        plane_block(op, op->plane, (size_t)nfull * zb, op->zb_rem, 1);
+    pass_z(op, op->bz);
 }
 
 dpz_status dpz_fftop_apply(dpz_fftop *op, const double complex *x, double complex *y,
@@ -454,15 +599,15 @@ dpz_status dpz_fftop_apply(dpz_fftop *op, const double complex *x, double comple
     if (!op || !x || !y)
         return dpz_err_set(err, DPZ_EINVAL, "FFT operator: NULL argument");
     convolve(op, x);
-    size_t cs = op->cstride;
-    const double complex *b0 = op->buf, *b1 = op->buf + cs, *b2 = op->buf + 2 * cs;
+    size_t cs = op->cs;
+    const double complex *s0 = op->slab, *s1 = op->slab + cs, *s2 = op->slab + 2 * cs;
     const size_t *pos = op->pos;
     const double complex *ia = op->inv_alpha;
 #pragma omp parallel for num_threads(op->threads) schedule(static)
     for (long v = 0; v < (long)op->n_occ; v++) {
-        y[3 * v] = ia[v] * x[3 * v] - b0[pos[v]];
-        y[3 * v + 1] = ia[v] * x[3 * v + 1] - b1[pos[v]];
-        y[3 * v + 2] = ia[v] * x[3 * v + 2] - b2[pos[v]];
+        y[3 * v] = ia[v] * x[3 * v] - s0[pos[v]];
+        y[3 * v + 1] = ia[v] * x[3 * v + 1] - s1[pos[v]];
+        y[3 * v + 2] = ia[v] * x[3 * v + 2] - s2[pos[v]];
     }
     return DPZ_OK;
 }
@@ -473,14 +618,14 @@ dpz_status dpz_fftop_apply_green(dpz_fftop *op, const double complex *x,
     if (!op || !x || !y)
         return dpz_err_set(err, DPZ_EINVAL, "FFT operator: NULL argument");
     convolve(op, x);
-    size_t cs = op->cstride;
-    const double complex *b0 = op->buf, *b1 = op->buf + cs, *b2 = op->buf + 2 * cs;
+    size_t cs = op->cs;
+    const double complex *s0 = op->slab, *s1 = op->slab + cs, *s2 = op->slab + 2 * cs;
     const size_t *pos = op->pos;
 #pragma omp parallel for num_threads(op->threads) schedule(static)
     for (long v = 0; v < (long)op->n_occ; v++) {
-        y[3 * v] = b0[pos[v]];
-        y[3 * v + 1] = b1[pos[v]];
-        y[3 * v + 2] = b2[pos[v]];
+        y[3 * v] = s0[pos[v]];
+        y[3 * v + 1] = s1[pos[v]];
+        y[3 * v + 2] = s2[pos[v]];
     }
     return DPZ_OK;
 }

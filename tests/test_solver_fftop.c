@@ -215,7 +215,11 @@ static void test_fftop_complex_symmetric(void **state)
     dpz_grid_destroy(g);
 }
 
-/* One thread and two threads give the same product to rounding. */
+/* One thread and two threads give the same product to rounding (the second operator
+ * also plans with FFTW_MEASURE); with the same planner effort, three threads give
+ * exactly the same bits as one: the operator splits whole lines and plane blocks among
+ * threads, each computed by the same operations. 6 x 5 x 7 pads to 12 x 10 x 14: 14 z
+ * frequencies leave a remainder block of 2, and 90 slab lines a remainder chunk. */
 static void test_fftop_threads_agree(void **state)
 {
     (void)state;
@@ -241,6 +245,12 @@ static void test_fftop_threads_agree(void **state)
     assert_int_equal(dpz_fftop_apply(b, x, y2, &err), DPZ_OK);
     for (size_t i = 0; i < n; i++)
         assert_cclose_abs(y2[i], y1[i], TOL_FFT, scale);
+    dpz_fftop *c3 = NULL;
+    dpz_op_opts o3 = {3, DPZ_PLAN_ESTIMATE};
+    assert_int_equal(dpz_fftop_create(&c3, g, k, DPZ_DIPOLE_CMRR, ia, &o3, &err), DPZ_OK);
+    assert_int_equal(dpz_fftop_apply(c3, x, y2, &err), DPZ_OK);
+    assert_memory_equal(y1, y2, n * sizeof *y1);
+    dpz_fftop_destroy(c3);
     dpz_fftop_destroy(a);
     dpz_fftop_destroy(b);
     free(ia);
@@ -250,9 +260,11 @@ static void test_fftop_threads_agree(void **state)
     dpz_grid_destroy(g);
 }
 
-/* Padded sizes are FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1; the memory
- * estimate covers three padded complex work grids and the six kernel components on the
- * non-negative frequency octant (p/2 + 1 per axis), plus per-voxel data. */
+/* Padded sizes are even, FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1 (1 for a
+ * single layer); the memory estimate covers the z-transformed slab (3 nx ny pz points),
+ * one plane buffer per thread (3 px py zb points, zb <= 4 z frequencies) and the six
+ * kernel components on the non-negative frequency octant (p/2 + 1 per axis), plus
+ * per-voxel data. */
 static void test_fftop_padding_and_memory(void **state)
 {
     (void)state;
@@ -265,16 +277,19 @@ static void test_fftop_padding_and_memory(void **state)
                      DPZ_OK);
     size_t p[3];
     dpz_fftop_padded_dims(op, p);
-    /* 2*6-1 = 11 -> 12; 2*11-1 = 21 = 3*7; 1 -> 1. */
+    /* 2*6 = 12; 2*11 = 22 = 2*11 is not 7-smooth -> 24; a single layer stays 1. */
     assert_int_equal(p[0], 12);
-    assert_int_equal(p[1], 21);
+    assert_int_equal(p[1], 24);
     assert_int_equal(p[2], 1);
     size_t need = dpz_fftop_memory_need(g);
-    size_t ptot = p[0] * p[1] * p[2];
-    size_t octant = (12 / 2 + 1) * (21 / 2 + 1) * (1 / 2 + 1);
-    size_t grids = (3 * ptot + 6 * octant) * sizeof(double complex);
+    size_t slab = 3 * 6 * 11 * 1, plane = 3 * 12 * 24 * 1;
+    size_t octant = (12 / 2 + 1) * (24 / 2 + 1) * 1;
+    size_t grids = (slab + plane + 6 * octant) * sizeof(double complex);
     assert_true(need >= grids + g->n_occ * (sizeof(size_t) + 4 * sizeof(double complex)));
     assert_true(need <= grids + 200 * g->n_occ + 4096);
+    /* A second thread adds one plane buffer (rounded to 8 points). */
+    size_t need2 = dpz_fftop_memory_need_threads(g, 2);
+    assert_int_equal(need2 - need, (plane + 7) / 8 * 8 * sizeof(double complex));
     assert_int_equal(dpz_fftop_linop(op).n, 3 * g->n_occ);
     dpz_fftop_destroy(op);
     free(ia);

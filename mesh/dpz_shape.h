@@ -113,7 +113,9 @@ void dpz_shape_half_extent(const dpz_shape *s, double h[3]);
  * fractions != 0: each voxel is sampled at subsamples^3 points (centres of its sub-cells,
  * 1 <= subsamples <= 16); grid->fill receives the fraction of samples inside the shape;
  * a voxel is occupied when that fraction is > 0, and its label is the label covering most
- * of its samples (ties: the lower label).
+ * of its samples (ties: the lower label). Voxels that a distance bound shows to lie
+ * wholly inside or outside one label are not sampled (same result, far less work: only
+ * the boundary layer is sampled).
  * The grid is centred on the shape centre (0,0,0), source_kind = DPZ_SOURCE_SHAPE and
  * source = dpz_shape_format(s). Statuses: DPZ_EINVAL (invalid shape or spacing),
  * DPZ_ELIMIT (more than max_cells voxels; 0 means DPZ_GRID_DEFAULT_MAX_CELLS),

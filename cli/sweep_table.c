@@ -333,7 +333,7 @@ static void mark_damage(dpz_table *t, size_t line, const char *what)
 {
     t->damaged = 1;
     t->damage_line = line;
-    snprintf(t->damage, sizeof t->damage, "%s", what);
+    snprintf(t->damage, sizeof t->damage, "%.250s", what);
 }
 
 dpz_status dpz_sweep_table_scan(dpz_table_kind kind, const char *name, const char *buf,

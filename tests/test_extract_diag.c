@@ -313,6 +313,29 @@ static void test_diag_lossless_unitarity_and_leakage(void **state)
     dpz_grid_destroy(g);
 }
 
+/* The lattice-dispersion-relation prescription (Draine & Goodman 1993) keeps the exact
+ * radiative reaction, so a lossless target conserves energy with it as well. */
+static void test_diag_ldr_lossless_balance(void **state)
+{
+    (void)state;
+    const double d = 4.1e-9;
+    dpz_grid *g = split_ring_grid(d);
+    dpz_setup s = make_setup(g, 12.25);
+    s.model = DPZ_DIPOLE_LDR;
+    double k = 0.5 / dpz_grid_aeq(g);
+    dpz_tensor t;
+    assert_int_equal(dpz_tensor_compute(&s, 2.0 * PI / k, &t, NULL, NULL), DPZ_OK);
+    print_message("split ring, LDR, lossless: balance %.3g, reciprocity %.3g, absorption "
+                  "eig %.3g .. %.3g\n",
+                  t.energy_balance, t.reciprocity, t.absorption_eig[0],
+                  t.absorption_eig[5]);
+    assert_true(t.lossless);
+    assert_true(t.reciprocity < TOL_EXACT);
+    /* truncation at n = 3 for this asymmetric target leaves ~1e-7 */
+    assert_true(t.energy_balance < 1e-5);
+    dpz_grid_destroy(g);
+}
+
 /* Lossy particle (eps -10+1i): the absorption matrix and the fluctuation tensor are
  * positive (definite here, since every voxel absorbs), reciprocity still holds. */
 static void test_diag_lossy_is_positive(void **state)
@@ -499,6 +522,7 @@ int main(void)
         cmocka_unit_test(test_diag_inversion_symmetric_has_no_em),
         cmocka_unit_test(test_diag_chirality_flips_under_mirror),
         cmocka_unit_test(test_diag_lossless_unitarity_and_leakage),
+        cmocka_unit_test(test_diag_ldr_lossless_balance),
         cmocka_unit_test(test_diag_lossy_is_positive),
         cmocka_unit_test(test_diag_cross_sections_against_mie),
         cmocka_unit_test(test_diag_cross_sections_energy_balance),

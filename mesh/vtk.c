@@ -475,6 +475,16 @@ dpz_status dpz_vtk_read(dpz_grid **out, const char *buf, size_t len, const char 
                 "values expected)",
             name, ln, cell_data ? "CELL_DATA" : "POINT_DATA", n_data, total);
 
+    /* Before allocating: the rest of the input must be able to hold the values (one byte
+     * each in binary, a digit and a separator in ASCII), so that a short file claiming
+     * a huge grid fails at once. */
+    size_t left = c.len - c.pos;
+    if (binary ? left < total : left / 2 + 1 < total)
+        return dpz_err_set(err, DPZ_EFORMAT,
+                           WHO
+                           ": %s: line %zu: truncated file: %zu values announced, only "
+                           "%zu bytes follow",
+                           name, ln, total, left);
     dpz_grid *g = NULL;
     dpz_status st = dpz_grid_create(&g, nv[0], nv[1], nv[2], sp[0], max_cells, err);
     if (st != DPZ_OK)

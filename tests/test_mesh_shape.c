@@ -295,12 +295,9 @@ static void test_shape_helix_symmetries(void **state)
     assert_true(memcmp(g->label, gl->label, g->nx * g->ny * g->nz) != 0);
     /* Points on the centre line are inside, points on the axis are not. */
     double on_line[3] = {h.coil_radius, 0.0, -0.5 * h.pitch * h.turns};
-    double quarter[3] = {0.0, h.coil_radius,
-                         -0.25 * h.pitch * h.turns * 2 / 2 * 0.5 * 2 -
-                             0.5 * h.pitch * h.turns + 0.25 * h.pitch +
-                             0.25 * h.pitch * h.turns};
-    /* After a quarter turn the right-handed line is at (0, R, -pN/2 + p/4). */
-    quarter[2] = -0.5 * h.pitch * h.turns + 0.25 * h.pitch;
+    /* After a quarter turn the right-handed line is at (0, R, -pN/2 + p/4); the
+     * left-handed one is at (0, -R, ...), so this point is outside it (2R > 2w away). */
+    double quarter[3] = {0.0, h.coil_radius, -0.5 * h.pitch * h.turns + 0.25 * h.pitch};
     double axis_pt[3] = {0.0, 0.0, 0.0};
     assert_int_equal(dpz_shape_label_at(&h, on_line), 1);
     assert_int_equal(dpz_shape_label_at(&h, quarter), 1);

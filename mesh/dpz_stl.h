@@ -57,7 +57,7 @@ dpz_status dpz_stl_read_file(dpz_mesh **out, const char *path, double unit_m,
 
 /* Signed volume by the divergence theorem, sum over triangles of a . (b x c) / 6 (Zhang
  * and Chen, "Efficient feature extraction for 2D/3D objects in mesh representation",
- * ICIP 2001), m^3; positive for an outward-wound closed mesh. */
+ * ICIP 2001; cited from memory), m^3; positive for an outward-wound closed mesh. */
 double dpz_mesh_signed_volume(const double *xyz_m, size_t n_tri);
 
 /* Voxelizes the mesh on a lattice of spacing d_m (m) centred on the mesh bounding box
@@ -65,10 +65,12 @@ double dpz_mesh_signed_volume(const double *xyz_m, size_t n_tri);
  * three axis directions, rays through the voxel centres cross the triangles; a point is
  * inside for that direction when the signed crossings beyond it (+1 leaving, -1 entering)
  * do not sum to zero. Points of a ray that fall exactly on a projected edge or vertex are
- * given to exactly one of the triangles that share it, by the top-left rule of
- * rasterization on counter-clockwise-normalized triangles with edge functions evaluated
- * in one canonical order (Pineda, "A parallel algorithm for polygon rasterization",
- * SIGGRAPH 1988), so rays through edges and vertices do not flip voxels; the three
+ * given to exactly one of the triangles that share it: edge functions (Pineda, "A
+ * parallel algorithm for polygon rasterization", SIGGRAPH 1988) are evaluated with the
+ * endpoints in one canonical order, so that both triangles of an edge see the same value,
+ * and zeros are broken by the top-left fill rule on counter-clockwise-normalized
+ * triangles (common practice in GPU rasterization); rays through edges and vertices
+ * therefore do not flip voxels; the three
  * directions then vote (two of three) against rounding in near-degenerate triangles.
  * Occupied voxels get label 1. With fractions != 0, rays along x at subsamples^2 sample
  * rows per voxel give fill fractions over subsamples^3 points per voxel (1..16); a voxel

@@ -164,8 +164,9 @@ dpz_status dpz_shape_validate(const dpz_shape *s, dpz_err *err)
 /* ---- rotation and membership
  * ----------------------------------------------------------- */
 
-/* R = Rz(A) Ry(B) Rz(G), the z-y-z active rotation (Goldstein, Classical Mechanics, 3rd
- * ed. 2002, sec. 4.4, with the y-convention); columns are the body axes. */
+/* R = Rz(A) Ry(B) Rz(G), the z-y-z Euler rotation used for active rotations in angular
+ * momentum theory (Edmonds, Angular Momentum in Quantum Mechanics, 1957, ch. 1; cited
+ * from memory); the columns of R are the body axes in the grid frame. */
 static void euler_matrix(const double e[3], double R[3][3])
 {
     double ca = cos(e[0]), sa = sin(e[0]), cb = cos(e[1]), sb = sin(e[1]);

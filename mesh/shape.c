@@ -44,8 +44,7 @@ dpz_status dpz_shape_kind_from_name(const char *name, dpz_shape_kind *kind, dpz_
         name ? name : "(null)");
 }
 
-/* ---- validation
- * ------------------------------------------------------------------------ */
+/* ---- validation ---- */
 
 static int positive(double v)
 {
@@ -161,8 +160,7 @@ dpz_status dpz_shape_validate(const dpz_shape *s, dpz_err *err)
     return DPZ_OK;
 }
 
-/* ---- rotation and membership
- * ----------------------------------------------------------- */
+/* ---- rotation and membership ---- */
 
 /* R = Rz(A) Ry(B) Rz(G), the z-y-z Euler rotation used for active rotations in angular
  * momentum theory (Edmonds, Angular Momentum in Quantum Mechanics, 1957, ch. 1; cited
@@ -427,8 +425,7 @@ int dpz_shape_label_at(const dpz_shape *s, const double r[3])
     return body_label(s, b);
 }
 
-/* ---- volume and extent
- * ------------------------------------------------------------------ */
+/* ---- volume and extent ---- */
 
 /* Area of {x > 0, |y| < g, x^2 + y^2 <= r^2}: 2 * integral_0^g sqrt(r^2 - y^2) dy. */
 static double slot_area(double r, double g)
@@ -552,8 +549,7 @@ void dpz_shape_half_extent(const dpz_shape *s, double h[3])
     shape_half_extent(s, R, h);
 }
 
-/* ---- voxelization
- * ----------------------------------------------------------------------- */
+/* ---- voxelization ---- */
 
 /* Voxel count along one axis. q = half extent / d. The lattice has either a voxel centre
  * (odd count, centres at integers) or a face (even count, centres at half-integers) on
@@ -687,8 +683,7 @@ dpz_status dpz_shape_voxelize(dpz_grid **out, const dpz_shape *s, double d_m,
     return DPZ_OK;
 }
 
-/* ---- text record
- * ------------------------------------------------------------------------ */
+/* ---- text record ---- */
 
 /* Shortest %.Ng form (N <= 17) that reads back to exactly v. */
 static void fmt_num(double v, char out[32])

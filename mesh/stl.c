@@ -239,8 +239,7 @@ dpz_status dpz_mesh_from_triangles(dpz_mesh **out, const double *xyz_m, size_t n
     return DPZ_OK;
 }
 
-/* ---- reading --------------------------------------------------------------------------
- */
+/* ---- reading ---- */
 
 typedef struct {
     double *t;
@@ -515,8 +514,7 @@ dpz_status dpz_stl_read_file(dpz_mesh **out, const char *path, double unit_m,
     return st;
 }
 
-/* ---- voxelization --------------------------------------------------------------------
- */
+/* ---- voxelization ---- */
 
 typedef struct {
     size_t row;

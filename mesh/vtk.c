@@ -686,8 +686,7 @@ dpz_status dpz_vtk_read_file(dpz_grid **out, const char *path, size_t max_cells,
     return st;
 }
 
-/* ---- writer
- * ------------------------------------------------------------------------------ */
+/* ---- writer ---- */
 
 static void put_be32(unsigned char *p, uint32_t u)
 {

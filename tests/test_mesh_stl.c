@@ -15,8 +15,7 @@
 #include "dpz_shape.h"
 #include "dpz_stl.h"
 
-/* ---- mesh generators
- * ------------------------------------------------------------------- */
+/* ---- mesh generators ---- */
 
 typedef struct {
     double *t;
@@ -211,8 +210,7 @@ static dpz_grid *vox_ok(const dpz_mesh *m, double d, int fractions)
     return g;
 }
 
-/* ---- tests
- * ------------------------------------------------------------------------------ */
+/* ---- tests ---- */
 
 /* Two boxes whose faces are subdivided at half-integer steps, voxelized at d = 1 (unit
  * 1 m, so that every coordinate is exact): the rays through voxel centres run exactly

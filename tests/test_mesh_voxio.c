@@ -649,8 +649,7 @@ static void test_vtk_write_failure_leaves_nothing(void **state)
     dpz_grid_destroy(g);
 }
 
-/* ---- NumPy .npy
- * ------------------------------------------------------------------------ */
+/* ---- NumPy .npy ---- */
 
 /* Writes a .npy buffer for the 5 x 4 x 3 test object, following NEP 1: magic, version,
  * little-endian header length, dict padded with spaces to a multiple of 64 bytes, '\n'.
@@ -896,8 +895,7 @@ static void test_npy_rejects_malformed(void **state)
     assert_true(failures >= 3);
 }
 
-/* ---- CSV
- * ---------------------------------------------------------------------------------- */
+/* ---- CSV ---- */
 
 static void test_csv_round_trip_keeps_every_voxel(void **state)
 {

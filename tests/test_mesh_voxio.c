@@ -9,6 +9,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
 #include "dpz_test.h"
@@ -128,6 +129,13 @@ static void test_vtk_written_header(void **state)
     dpz_grid *g = make_object(0);
     const char *path = scratch_path("hdr.vtk");
     assert_int_equal(dpz_vtk_write_file(g, path, NULL), DPZ_OK);
+    /* The usual permissions of a new file (0666 less the umask), not the 0600 of a
+     * temporary file. */
+    mode_t mask = umask(0);
+    umask(mask);
+    struct stat sb;
+    assert_int_equal(stat(path, &sb), 0);
+    assert_int_equal(sb.st_mode & 0777, 0666 & ~mask);
     FILE *f = fopen(path, "rb");
     assert_non_null(f);
     char text[400] = {0};

@@ -8,6 +8,12 @@
 #include "dpz_common.h"
 #include "dpz_grid.h"
 
+/* C11 CMPLX where the C library does not provide it (glibc defines it only for compilers
+ * it recognises as GCC >= 4.7, not for clang). Finite arguments only. */
+#ifndef CMPLX
+#define CMPLX(x, y) ((double complex)((double)(x) + _Complex_I * (double)(y)))
+#endif
+
 /* pi to double precision (M_PI is not part of strict C17). */
 #define DPZ_XPI 3.14159265358979323846
 

@@ -9,6 +9,11 @@
 
 #include "dpz_test.h"
 
+/* glibc provides CMPLX only for GCC; a fallback for finite arguments. */
+#ifndef CMPLX
+#define CMPLX(x, y) ((double complex)((double)(x) + _Complex_I * (double)(y)))
+#endif
+
 #include "dpz_mie.h"
 
 #define PI 3.14159265358979323846

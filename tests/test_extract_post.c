@@ -10,6 +10,11 @@
 
 #include "dpz_test.h"
 
+/* glibc provides CMPLX only for GCC; a fallback for finite arguments. */
+#ifndef CMPLX
+#define CMPLX(x, y) ((double complex)((double)(x) + _Complex_I * (double)(y)))
+#endif
+
 #include "dpz_post.h"
 
 /* 3x3 products and 6x6 sandwiches: a few tens of ulps. */

@@ -10,6 +10,11 @@
 
 #include "dpz_test.h"
 
+/* glibc provides CMPLX only for GCC; a fallback for finite arguments. */
+#ifndef CMPLX
+#define CMPLX(x, y) ((double complex)((double)(x) + _Complex_I * (double)(y)))
+#endif
+
 #include "dpz_diag.h"
 #include "dpz_extract.h"
 #include "dpz_mie.h"

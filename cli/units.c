@@ -463,6 +463,16 @@ dpz_status dpz_units_size_params(const char *opt, const char *text, double *out,
     return list_of(opt, text, out, max, n, dpz_units_real, "0.05,0.1,0.2", err);
 }
 
+/* LO + i STEP carries a few ulps of rounding (0.1 + 2 * 0.1 != 0.3); the points a user
+ * means are short decimals, so round to 15 significant digits (beyond the rounding, far
+ * within any typed precision) and read back the double nearest that decimal. */
+static double snap_decimal(double x)
+{
+    char buf[64];
+    snprintf(buf, sizeof buf, "%.15g", x);
+    return strtod(buf, NULL);
+}
+
 static int cmp_double(const void *a, const void *b)
 {
     double x = *(const double *)a, y = *(const double *)b;
@@ -662,7 +672,7 @@ dpz_status dpz_units_wavelengths(const char *opt, const char *text, size_t max_p
         if (!v)
             return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
         for (size_t i = 0; i < count; i++)
-            v[i] = lo + (double)i * step;
+            v[i] = snap_decimal(lo + (double)i * step);
         /* HI on the grid within rounding: report it exactly as typed. */
         if (fabs(v[count - 1] - hi) <= UNITS_RANGE_SLACK * step)
             v[count - 1] = hi;

@@ -197,7 +197,7 @@ static void test_tblock_single_displaced_dipole(void **state)
 /* Voxelized spheres against Mie (Bohren & Huffman 1983), x_eq = k a_eq = 0.5, radii of 3,
  * 5 and 7 voxels (7, 11 and 15 dipoles per diameter), compared at the equal-volume
  * radius. Measured relative errors of the orientation-averaged blocks (CM + radiative
- * reaction, FFT operator, COCG to 1e-9):
+ * reaction, FFT operator, COCG to 1e-8):
  *   eps 2.25:    a_ee 1.03%, 0.76%, 0.48%;   a_mm  7.1%, 4.8%, 3.1%
  *   eps 12.25:   a_ee 10.7%, 7.3%,  4.3%;    a_mm 38%,  26%,  19%
  *   eps -10+1i:  a_ee 40%,   23%,   12%;     a_mm 16%,  3.8%, 12% (staircase oscillation)
@@ -218,7 +218,7 @@ static void sphere_errors(double complex eps, int R, double *eee, double *emm,
 {
     const double d = 4.7e-9;
     dpz_grid *g = make_sphere(R, d);
-    dpz_setup s = make_setup(g, eps, 1e-9);
+    dpz_setup s = make_setup(g, eps, 1e-8); /* percent-level errors: 1e-8 is ample */
     double aeq = dpz_grid_aeq(g);
     double k = 0.5 / aeq;
     double lambda0 = 2.0 * PI / k;

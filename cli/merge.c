@@ -100,7 +100,7 @@ static dpz_status shard_load(shard_in *s, dpz_err *err)
                 cJSON_IsTrue(c) != (tb->groups[j].converged != 0))
                 return dpz_err_set(
                     err, DPZ_EFORMAT,
-                    "%s: line %zu: wavelength %.17g m does not match result "
+                    "%s: line %zu: wavelength %.12g m does not match result "
                     "%zu of %s/summary.json",
                     path, tb->groups[j].first_line, tb->groups[j].lambda0_m, j + 1,
                     s->dir);
@@ -225,7 +225,7 @@ dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *o
             if (p == n_wl) {
                 st = dpz_err_set(
                     err, DPZ_EFORMAT,
-                    "merge: %s/alpha.csv: line %zu: wavelength %.17g m is not "
+                    "merge: %s/alpha.csv: line %zu: wavelength %.12g m is not "
                     "in the run's wavelength list",
                     s[i].dir, tb->groups[g].first_line, tb->groups[g].lambda0_m);
                 break;
@@ -233,7 +233,7 @@ dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *o
             if (owner[p] != SIZE_MAX) {
                 st = dpz_err_set(
                     err, DPZ_EINVAL,
-                    "merge: wavelength %.17g m (position %zu) is in both %s and "
+                    "merge: wavelength %.12g m (position %zu) is in both %s and "
                     "%s",
                     lam[p], p, s[owner[p]].dir, s[i].dir);
                 break;
@@ -247,7 +247,7 @@ dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *o
             if (owner[p] == SIZE_MAX) {
                 st = dpz_err_set(
                     err, DPZ_EINVAL,
-                    "merge: wavelength %.17g m (position %zu of %zu) is in none "
+                    "merge: wavelength %.12g m (position %zu of %zu) is in none "
                     "of the given directories (a shard missing or unfinished)",
                     lam[p], p, n_wl);
                 break;

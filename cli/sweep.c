@@ -491,7 +491,7 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
             !cJSON_IsBool(conv)) {
             cJSON_Delete(old);
             return cli_fail(
-                "sweep: %s/summary.json: result %zu is not wavelength %.17g m", o->dir,
+                "sweep: %s/summary.json: result %zu is not wavelength %.12g m", o->dir,
                 i + 1, c->wl[p]);
         }
         if (!cJSON_IsTrue(conv))
@@ -714,7 +714,7 @@ static void progress(const dpz__sweep_ctx *c, const dpz__sweep_out *o,
     if (o->progress == 2) {
         fprintf(stderr,
                 "\rdipolize: sweep %zu/%zu  %.6g nm  %llu iterations  residual %.1e%s  "
-                "ETA %s   ",
+                "ETA %s\033[K",
                 o->done, c->shard_size, r->lambda0_m * 1e9,
                 (unsigned long long)r->iterations, r->residual,
                 r->converged ? "" : "  NOT CONVERGED", eta);

@@ -262,7 +262,7 @@ static void test_fftop_threads_agree(void **state)
 
 /* Padded sizes are even, FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1 (1 for a
  * single layer); the memory estimate covers the z-transformed slab (3 nx ny pz points),
- * one plane buffer per thread (3 px py zb points, zb <= 4 z frequencies) and the six
+ * one plane buffer per thread (3 px py zb points, zb <= 16 z frequencies) and the six
  * kernel components on the non-negative frequency octant (p/2 + 1 per axis), plus
  * per-voxel data. */
 static void test_fftop_padding_and_memory(void **state)

@@ -291,7 +291,13 @@ dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *o
     set_item(merged, "finished", cJSON_CreateTrue());
 
     /* Write everything into a fresh directory beside OUT, then rename it into place. */
-    snprintf(tmpdir, sizeof tmpdir, "%s.merging.%ld", out, (long)getpid());
+    {
+        /* "OUT/" and "OUT" name the same directory; the temporary one goes beside it. */
+        size_t ol = strlen(out);
+        while (ol > 1 && out[ol - 1] == '/')
+            ol--;
+        snprintf(tmpdir, sizeof tmpdir, "%.*s.merging.%ld", (int)ol, out, (long)getpid());
+    }
     if (mkdir(tmpdir, 0755) != 0) {
         st = dpz_err_set(err, DPZ_EIO, "merge: cannot create %s: %s", tmpdir,
                          strerror(errno));

@@ -442,6 +442,7 @@ int dpz_cli_merge(int argc, char **argv)
         return st == DPZ_ENOMEM ? CLI_FAILED : CLI_USAGE;
     }
     if (!quiet)
-        fprintf(stderr, "dipolize: merge: %zu directories merged into %s\n", n, out);
+        fprintf(stderr, "dipolize: merge: %zu director%s merged into %s\n", n,
+                n == 1 ? "y" : "ies", out);
     return CLI_OK;
 }

@@ -36,8 +36,7 @@ size_t dpz_sweep_shard_position(size_t j, size_t index, size_t count);
  * printed by cJSON with 15 digits when they agree to its own epsilon. */
 int dpz_sweep_same_wavelength(double a, double b);
 
-/* ---- the result of one wavelength ---------------------------------------------------
- */
+/* ---- the result of one wavelength ------------------------------------------------- */
 /* Plain data (no pointers) so that MPI workers can send it to rank 0 as bytes. */
 typedef struct dpz_sweep_result {
     uint64_t position; /* index in the full wavelength list */
@@ -56,8 +55,7 @@ typedef struct dpz_sweep_result {
     double seconds;          /* wall time of this wavelength, s */
 } dpz_sweep_result;
 
-/* ---- the three CSV tables -----------------------------------------------------------
- */
+/* ---- the three CSV tables --------------------------------------------------------- */
 typedef enum {
     DPZ_TABLE_ALPHA = 0,
     DPZ_TABLE_XSEC = 1,
@@ -118,8 +116,7 @@ void dpz_sweep_table_free(dpz_table *t);
 dpz_status dpz_sweep_row_parse(dpz_table_kind kind, const char *line, size_t len,
                                dpz_sweep_result *r, int *elem, dpz_err *err);
 
-/* ---- files --------------------------------------------------------------------------
- */
+/* ---- files ------------------------------------------------------------------------ */
 /* Reads a whole file into a malloc'd, NUL-terminated buffer. */
 dpz_status dpz_sweep_read_file(const char *path, char **buf, size_t *len, dpz_err *err);
 /* Writes `len` bytes to DIR/NAME through a temporary file in DIR, fsync, rename and a
@@ -131,8 +128,7 @@ dpz_status dpz_sweep_write_atomic_parts(const char *dir, const char *name,
                                         const void *const *parts, const size_t *lens,
                                         size_t n_parts, dpz_err *err);
 
-/* ---- summary.json -------------------------------------------------------------------
- */
+/* ---- summary.json ----------------------------------------------------------------- */
 /* Compares the inputs recorded by two summary.json texts: `version`, `input` (without
  * `path`), `materials` (without paths), `options`, `wavelengths_m` and, when
  * `with_shard`, `shard`. Returns NULL when they are equal, else the name of the first

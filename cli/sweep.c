@@ -34,7 +34,7 @@
 #define DPZ_VERSION "unknown"
 #endif
 
-/* ---- the command ------------------------------------------------------------------- */
+/* ---- the command ------------------------------------------------------------------ */
 static const cli_opt sweep_opts[] = {
     {"--wavelengths", "LIST",
      "vacuum wavelengths: LO:HI:STEP (lengths with units, e.g. 400nm:700nm:10nm), "
@@ -93,7 +93,7 @@ static double now_s(void)
     return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
 }
 
-/* ---- inputs ------------------------------------------------------------------------ */
+/* ---- inputs ----------------------------------------------------------------------- */
 /* "KX,KY,KZ:EX,EY,EZ": a real direction and a complex polarization transverse to it. */
 static int parse_incidence(const char *text, double khat[3], double complex e0[3])
 {
@@ -282,8 +282,7 @@ static cJSON *summary_new(const dpz__sweep_ctx *c, const char *path, const char 
     return s;
 }
 
-/* ---- the output directory -----------------------------------------------------------
- */
+/* ---- the output directory --------------------------------------------------------- */
 struct dpz__sweep_out {
     const char *dir;
     int fd[DPZ_TABLE_COUNT];
@@ -619,8 +618,7 @@ static int create_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, int existed)
     return CLI_OK;
 }
 
-/* ---- one wavelength ------------------------------------------------------------------
- */
+/* ---- one wavelength --------------------------------------------------------------- */
 static int is_noconv(dpz_status s)
 {
     return s == DPZ_ENOCONV || s == DPZ_EBREAKDOWN || s == DPZ_ESTAGNATION;
@@ -687,8 +685,7 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
     return DPZ_OK;
 }
 
-/* ---- recording and progress ---------------------------------------------------------
- */
+/* ---- recording and progress ------------------------------------------------------- */
 static void format_duration(double s, char *buf, size_t cap)
 {
     if (!(s >= 0.0) || s > 1e7)
@@ -696,9 +693,9 @@ static void format_duration(double s, char *buf, size_t cap)
     else if (s < 60)
         snprintf(buf, cap, "%.0fs", s);
     else if (s < 3600)
-        snprintf(buf, cap, "%.0fm%02.0fs", floor(s / 60), fmod(s, 60));
+        snprintf(buf, cap, "%ldm%02lds", lround(s) / 60, lround(s) % 60);
     else
-        snprintf(buf, cap, "%.0fh%02.0fm", floor(s / 3600), floor(fmod(s, 3600) / 60));
+        snprintf(buf, cap, "%ldh%02ldm", lround(s) / 3600, lround(s) % 3600 / 60);
 }
 
 static void progress(const dpz__sweep_ctx *c, const dpz__sweep_out *o,

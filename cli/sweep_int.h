@@ -48,8 +48,7 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                              const dpz_sweep_result *r, double complex *const warm[6],
                              dpz_err *err);
 
-/* ---- MPI (mpi_farm.c); without DPZ_HAVE_MPI every rank is rank 0 of 1 -----------------
- */
+/* ---- MPI (mpi_farm.c); without DPZ_HAVE_MPI every rank is rank 0 of 1 ------------- */
 /* Initialises MPI when the program was started by an MPI launcher (and built with MPI);
  * *rank and *size receive the rank and the number of ranks (0 and 1 otherwise). */
 void dpz__mpi_start(int *argc, char ***argv, int *rank, int *size);

@@ -36,8 +36,7 @@ size_t dpz_sweep_shard_position(size_t j, size_t index, size_t count)
     return index + j * count;
 }
 
-/* ---- table layout -------------------------------------------------------------------
- */
+/* ---- table layout ----------------------------------------------------------------- */
 static const char *const table_files[DPZ_TABLE_COUNT] = {
     "alpha.csv", "cross_sections.csv", "diagnostics.csv"};
 static const char *const table_columns[DPZ_TABLE_COUNT] = {
@@ -79,8 +78,7 @@ size_t dpz_sweep_table_head(dpz_table_kind kind, char *buf, size_t cap)
     return (n < 0 || (size_t)n >= cap) ? 0 : (size_t)n;
 }
 
-/* ---- writing rows --------------------------------------------------------------------
- */
+/* ---- writing rows ----------------------------------------------------------------- */
 /* Appends text to buf; on overflow marks *pos as cap (so the caller sees failure). */
 typedef struct sbuf {
     char *p;
@@ -181,8 +179,7 @@ size_t dpz_sweep_rows(dpz_table_kind kind, const dpz_sweep_result *r, char *buf,
     return s.overflow ? 0 : s.pos;
 }
 
-/* ---- reading rows -------------------------------------------------------------------
- */
+/* ---- reading rows ----------------------------------------------------------------- */
 #define MAX_FIELDS 12
 
 /* Splits [line, line+len) at commas into at most MAX_FIELDS fields; returns the count
@@ -318,8 +315,7 @@ dpz_status dpz_sweep_row_parse(dpz_table_kind kind, const char *line, size_t len
     return DPZ_OK;
 }
 
-/* ---- scanning a table ---------------------------------------------------------------
- */
+/* ---- scanning a table ------------------------------------------------------------- */
 void dpz_sweep_table_free(dpz_table *t)
 {
     if (!t)
@@ -431,8 +427,7 @@ dpz_status dpz_sweep_table_scan(dpz_table_kind kind, const char *name, const cha
     return DPZ_OK;
 }
 
-/* ---- files --------------------------------------------------------------------------
- */
+/* ---- files ------------------------------------------------------------------------ */
 dpz_status dpz_sweep_read_file(const char *path, char **buf, size_t *len, dpz_err *err)
 {
     *buf = NULL;
@@ -543,8 +538,7 @@ dpz_status dpz_sweep_write_atomic(const char *dir, const char *name, const void 
     return dpz_sweep_write_atomic_parts(dir, name, parts, &len, 1, err);
 }
 
-/* ---- comparing inputs ---------------------------------------------------------------
- */
+/* ---- comparing inputs ------------------------------------------------------------- */
 /* Removes every member named "path" below `o` (paths of input files may differ between
  * machines; their content is compared through sha256). */
 static void drop_paths(cJSON *o)

@@ -28,10 +28,11 @@ struct dpz_iter {
     dpz_linop A;             /* copied descriptor; the operator itself is borrowed */
     const double complex *b; /* borrowed */
     double bnorm;
-    double complex *x, *r, *minv;
+    double complex *x, *r;
+    const double complex *diag; /* borrowed from A: Jacobi divides by it */
     int use_jacobi;
     /* BiCGSTAB */
-    double complex *rhat, *p, *v, *s, *t, *ph, *sh;
+    double complex *rhat, *p, *v, *s, *t, *ph; /* s: COCG's z = M^-1 r only */
     double complex rho, alpha, omega;
     int fresh;          /* the next BiCGSTAB/COCG step starts a new recurrence */
     int restarts;       /* BiCGSTAB restarts without progress */
@@ -131,12 +132,14 @@ static double complex dotu(size_t n, const double complex *x, const double compl
     return s;
 }
 
-/* z = M^-1 r (copy when not preconditioning). */
+/* z = M^-1 r (copy when not preconditioning). Dividing by the operator's diagonal on the
+ * fly instead of storing its inverse saves one vector; the division costs nothing next to
+ * an operator application. */
 static void precond(const dpz_iter *it, const double complex *r, double complex *z)
 {
     if (it->use_jacobi)
         for (size_t i = 0; i < it->n; i++)
-            z[i] = it->minv[i] * r[i];
+            z[i] = r[i] / it->diag[i];
     else
         memcpy(z, r, it->n * sizeof *z);
 }
@@ -167,9 +170,8 @@ void dpz_iter_destroy(dpz_iter *it)
 {
     if (!it)
         return;
-    double complex *vec[] = {it->x, it->r, it->minv, it->rhat, it->p,
-                             it->v, it->s, it->t,    it->ph,   it->sh,
-                             it->V, it->H, it->cs_s, it->g,    it->y};
+    double complex *vec[] = {it->x,  it->r, it->rhat, it->p,    it->v, it->s, it->t,
+                             it->ph, it->V, it->H,    it->cs_s, it->g, it->y};
     for (size_t i = 0; i < sizeof vec / sizeof vec[0]; i++)
         dpz__free(vec[i]);
     dpz__free(it->cs_c);
@@ -205,17 +207,16 @@ dpz_status dpz_iter_create(dpz_iter **out, size_t n, const dpz_solve_opts *opts,
     it->n = n;
     it->opts = o;
     it->status = DPZ_EINVAL; /* until set */
+    /* Vectors of n entries: BiCGSTAB 7 (x r rhat p v t and one for p^ then s^), COCG 5,
+     * GMRES 4 + m + 1: memory per unknown is what limits the largest particle. */
     int ok = (it->x = dpz__calloc(n, sizeof(double complex))) &&
              (it->r = dpz__calloc(n, sizeof(double complex))) &&
-             (it->minv = dpz__calloc(n, sizeof(double complex))) &&
              (it->p = dpz__calloc(n, sizeof(double complex))) &&
              (it->v = dpz__calloc(n, sizeof(double complex)));
     if (ok && o.kind == DPZ_SOLVER_BICGSTAB)
         ok = (it->rhat = dpz__calloc(n, sizeof(double complex))) &&
-             (it->s = dpz__calloc(n, sizeof(double complex))) &&
              (it->t = dpz__calloc(n, sizeof(double complex))) &&
-             (it->ph = dpz__calloc(n, sizeof(double complex))) &&
-             (it->sh = dpz__calloc(n, sizeof(double complex)));
+             (it->ph = dpz__calloc(n, sizeof(double complex)));
     if (ok && o.kind == DPZ_SOLVER_COCG)
         ok = (it->s = dpz__calloc(n, sizeof(double complex))) != NULL; /* z = M^-1 r */
     if (ok && o.kind == DPZ_SOLVER_GMRES) {
@@ -291,8 +292,8 @@ dpz_status dpz_iter_set(dpz_iter *it, const dpz_linop *A, const double complex *
     it->restarts = 0;
     it->restart_res = INFINITY;
     it->use_jacobi = 0;
+    it->diag = NULL;
     if (it->opts.jacobi && A->diag) {
-        it->use_jacobi = 1;
         for (size_t i = 0; i < n; i++) {
             if (A->diag[i] == 0.0 || !isfinite(cabs(A->diag[i]))) {
                 it->status = DPZ_EINVAL;
@@ -301,8 +302,9 @@ dpz_status dpz_iter_set(dpz_iter *it, const dpz_linop *A, const double complex *
                                    "Jacobi preconditioning impossible",
                                    i);
             }
-            it->minv[i] = 1.0 / A->diag[i];
         }
+        it->use_jacobi = 1;
+        it->diag = A->diag;
     }
     it->bnorm = nrm2(n, b);
     if (!isfinite(it->bnorm)) {
@@ -440,10 +442,13 @@ static dpz_status bicgstab_restart_or_fail(dpz_iter *it, const char *what, dpz_e
 /* ---- the three methods
  * ------------------------------------------------------------------- */
 
+/* One BiCGSTAB iteration in seven vectors: s overwrites r (r is not needed once s is
+ * formed), and x takes its alpha p^ part at once so that the buffer of p^ can hold s^. */
 static dpz_status step_bicgstab(dpz_iter *it, dpz_err *err)
 {
     size_t n = it->n;
-    double complex *x = it->x, *r = it->r, *p = it->p, *v = it->v, *s = it->s, *t = it->t;
+    double complex *x = it->x, *r = it->r, *p = it->p, *v = it->v, *t = it->t;
+    double complex *ph = it->ph; /* p^ = M^-1 p, later s^ = M^-1 s */
     double complex rho1 = dotc(n, it->rhat, r);
     double rn = nrm2(n, r), rhn = nrm2(n, it->rhat);
     if (cabs(rho1) <= BREAKDOWN_TOL * rn * rhn)
@@ -457,36 +462,31 @@ static dpz_status step_bicgstab(dpz_iter *it, dpz_err *err)
             p[i] = r[i] + beta * (p[i] - it->omega * v[i]);
     }
     it->rho = rho1;
-    precond(it, p, it->ph);
-    dpz_status st = apply(it, it->ph, v, err);
+    precond(it, p, ph);
+    dpz_status st = apply(it, ph, v, err);
     if (st != DPZ_OK)
         return it->status = st;
     double complex den = dotc(n, it->rhat, v);
     if (cabs(den) <= BREAKDOWN_TOL * rhn * nrm2(n, v))
         return bicgstab_restart_or_fail(it, "rhat^H A p vanished", err);
     it->alpha = rho1 / den;
-    for (size_t i = 0; i < n; i++)
-        s[i] = r[i] - it->alpha * v[i];
-    double sn = nrm2(n, s) / it->bnorm;
-    if (sn <= it->opts.tol) {
-        /* Converged at the half step: x += alpha p^, r = s. */
-        for (size_t i = 0; i < n; i++)
-            x[i] += it->alpha * it->ph[i];
-        memcpy(r, s, n * sizeof *r);
-        return finish_step(it, sn, 0, err);
+    /* Half step: x += alpha p^, s = r - alpha v (stored in r). */
+    for (size_t i = 0; i < n; i++) {
+        x[i] += it->alpha * ph[i];
+        r[i] -= it->alpha * v[i];
     }
-    precond(it, s, it->sh);
-    st = apply(it, it->sh, t, err);
+    double sn = nrm2(n, r) / it->bnorm;
+    if (sn <= it->opts.tol)
+        return finish_step(it, sn, 0, err); /* converged at the half step */
+    precond(it, r, ph);
+    st = apply(it, ph, t, err);
     if (st != DPZ_OK)
         return it->status = st;
     double tt = nrm2(n, t);
-    double complex ts = dotc(n, t, s);
-    if (tt == 0.0 || cabs(ts) <= BREAKDOWN_TOL * tt * nrm2(n, s)) {
+    double complex ts = dotc(n, t, r);
+    if (tt == 0.0 || cabs(ts) <= BREAKDOWN_TOL * tt * nrm2(n, r)) {
         /* omega = 0: the half-step update is still valid, but the recurrence cannot go
          * on; keep the progress and restart. */
-        for (size_t i = 0; i < n; i++)
-            x[i] += it->alpha * it->ph[i];
-        memcpy(r, s, n * sizeof *r);
         st = finish_step(it, sn, 0, err);
         if (st != DPZ_CONTINUE)
             return st;
@@ -494,8 +494,8 @@ static dpz_status step_bicgstab(dpz_iter *it, dpz_err *err)
     }
     it->omega = ts / (tt * tt);
     for (size_t i = 0; i < n; i++) {
-        x[i] += it->alpha * it->ph[i] + it->omega * it->sh[i];
-        r[i] = s[i] - it->omega * t[i];
+        x[i] += it->omega * ph[i];
+        r[i] -= it->omega * t[i];
     }
     return finish_step(it, nrm2(n, r) / it->bnorm, 0, err);
 }
@@ -553,7 +553,7 @@ static void gmres_update(dpz_iter *it)
     }
     if (it->use_jacobi)
         for (size_t i = 0; i < n; i++)
-            it->x[i] += it->minv[i] * it->p[i];
+            it->x[i] += it->p[i] / it->diag[i];
     else
         for (size_t i = 0; i < n; i++)
             it->x[i] += it->p[i];

@@ -755,7 +755,10 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
     cJSON_AddNumberToObject(e, "position", (double)r->position);
     cJSON_AddBoolToObject(e, "converged", r->converged);
     cJSON_AddNumberToObject(e, "iterations", (double)r->iterations);
-    cJSON_AddNumberToObject(e, "residual", isfinite(r->residual) ? r->residual : -1.0);
+    if (isfinite(r->residual))
+        cJSON_AddNumberToObject(e, "residual", r->residual);
+    else
+        cJSON_AddNullToObject(e, "residual"); /* a solver breakdown */
     cJSON_AddNumberToObject(e, "seconds", r->seconds);
     cJSON_AddItemToArray(o->results, e);
     o->done++;

@@ -20,7 +20,7 @@ rm -rf "$out/sweep"
 
 metal="drude:eps_inf=9.5,wp=8.9eV,gamma=0.07eV" # illustrative, see above
 host=1.45
-lambda=1500nm
+lambda=1600nm
 solve="--solver cocg"
 t0=$(date +%s)
 

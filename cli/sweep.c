@@ -835,7 +835,9 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     if (inc && (rc = parse_incidence(inc, c->khat, c->e0)) != CLI_OK)
         return rc;
     c->n_vec = 3 * c->grid->n_occ;
-    return CLI_OK;
+    /* The memory estimate (operator, solver vectors, the six warm-start solutions)
+     * against --max-memory or the memory available, before allocating any of it. */
+    return cli_limits_check(a, c->grid, &c->setup, CLI_WORK_SWEEP);
 }
 
 static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)

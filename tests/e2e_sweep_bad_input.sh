@@ -49,6 +49,7 @@ bad "label 3" "$tmp/s.vtk" --material 1=2.25 --material 3=4 --wavelengths 400nm 
 bad "outside" "$tmp/s.vtk" --material "1=nk:$tmp/nk.csv" --wavelengths 500nm:700nm:50nm --quiet
 bad "no material" "$tmp/s.vtk" --wavelengths 400nm --quiet
 bad "tol" "${s[@]}" --wavelengths 400nm --tol 2
+bad "max-memory" "${s[@]}" --wavelengths 400nm --max-memory 1kB    # estimate above the limit
 
 # No -o at all.
 "$bin" sweep "${s[@]}" --wavelengths 400nm 2>"$tmp/err" >/dev/null

@@ -25,7 +25,10 @@
 #define RP_RECIPROCITY_OK 1e-6 /* relative; well above round-off of a converged solve */
 #define RP_NEG_EIG_TOL 1e-6  /* absolute: the absorption matrix is dimensionless, O(1) */
 #define RP_RADIATIVE_OK 0.05 /* |C3 + 2i/9 I| / (2/9) */
-#define RP_EXT_AGREE 0.05    /* point-dipole extinction within 5 % of the full solve */
+#define RP_TENSOR_ZERO                                                                   \
+    1e-9                  /* tensor parts below this fraction of the largest: shown 0    \
+                           */
+#define RP_EXT_AGREE 0.05 /* point-dipole extinction within 5 % of the full solve */
 
 #ifndef DPZ_VERSION
 #define DPZ_VERSION "unknown"
@@ -223,12 +226,25 @@ static void fmt_complex(char *out, size_t cap, double complex z)
 static void html_tensor3(buf *h, double complex t[3][3], double scale)
 {
     static const char *const ax[3] = {"x", "y", "z"};
+    /* Parts below RP_TENSOR_ZERO of the largest element are solver noise at the default
+     * tolerances: shown as 0 so that the structure of the tensor reads at a glance. */
+    double mx = 0.0;
+    for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++)
+            if (isfinite(cabs(t[r][c])))
+                mx = fmax(mx, cabs(t[r][c]));
+    double zero = RP_TENSOR_ZERO * mx;
     P(h, "<table><tr><th></th><th>x</th><th>y</th><th>z</th></tr>");
     for (int r = 0; r < 3; r++) {
         P(h, "<tr><th>%s</th>", ax[r]);
         for (int c = 0; c < 3; c++) {
+            double re = creal(t[r][c]), im = cimag(t[r][c]);
+            if (fabs(re) < zero)
+                re = 0.0;
+            if (fabs(im) < zero)
+                im = 0.0;
             char v[96];
-            fmt_complex(v, sizeof v, t[r][c] * scale);
+            fmt_complex(v, sizeof v, CMPLX(re * scale, im * scale));
             P(h, "<td class=\"num\">%s</td>", v);
         }
         P(h, "</tr>");
@@ -375,44 +391,87 @@ static dpz_status section_static(buf *h, const char *dir, const cJSON *js, dpz_e
         E(h, note);
         P(h, "</p>");
     }
+    double lam_eps;
+    if (json_num(js, "eps_at_wavelength_m", &lam_eps) == 0)
+        P(h,
+          "<p>The materials depend on wavelength: this static tensor uses their "
+          "permittivities at %.6g nm, so it is the k &#8594; 0 shape response at those "
+          "permittivities, not a property of the shape alone.</p>",
+          nm(lam_eps));
+    const cJSON *sol = cJSON_GetObjectItemCaseSensitive(js, "solver");
+    if (cJSON_IsObject(sol)) {
+        P(h, "<div>Solver of the static solves:");
+        html_json(h, sol, 1);
+        P(h, "</div>");
+    }
     int e = pick_exponent(chi);
     P(h, "<h3>&#967; (10<sup>%d</sup> m<sup>3</sup>)</h3>", e);
+    P(h,
+      "<p class=\"meta\">Parts smaller than %g of the largest element are shown as "
+      "0.</p>",
+      RP_TENSOR_ZERO);
     html_tensor3(h, chi, pow(10.0, -e));
     if (isfinite(V) && V > 0) {
         P(h, "<h3>&#967; / V (dimensionless)</h3>");
         html_tensor3(h, chi, 1.0 / V);
     }
-    /* Principal values: eigen-decomposition of the symmetric real part (Jacobi). */
-    double re[3][3], w[3], U[3][3], imax = 0.0, remax = 0.0;
+    /* Principal axes: eigenvectors (Jacobi) of M = Re(S) Re(S)^T + Im(S) Im(S)^T, S the
+     * symmetric part of chi. When Re(S) and Im(S) share their axes (any shape with three
+     * mirror planes, any lossless material) these are the axes of chi itself, and the
+     * complex principal values are u^T chi u. */
+    double M[3][3] = {{0}}, w[3], U[3][3];
+    double complex S[3][3];
     for (int r = 0; r < 3; r++)
-        for (int c = 0; c < 3; c++) {
-            re[r][c] = 0.5 * (creal(chi[r][c]) + creal(chi[c][r]));
-            imax = fmax(imax, fabs(cimag(chi[r][c])));
-            remax = fmax(remax, fabs(creal(chi[r][c])));
+        for (int c = 0; c < 3; c++)
+            S[r][c] = 0.5 * (chi[r][c] + chi[c][r]);
+    for (int r = 0; r < 3; r++)
+        for (int c = 0; c < 3; c++)
+            for (int k = 0; k < 3; k++)
+                M[r][c] +=
+                    creal(S[r][k]) * creal(S[c][k]) + cimag(S[r][k]) * cimag(S[c][k]);
+    dpz__pic_eigsym3((const double(*)[3])M, w, U);
+    /* How far U diagonalizes S: largest off-diagonal element of U^T S U, relative. */
+    double complex D[3][3];
+    double off = 0.0, dmax = 0.0;
+    for (int a = 0; a < 3; a++)
+        for (int b = 0; b < 3; b++) {
+            D[a][b] = 0.0;
+            for (int r = 0; r < 3; r++)
+                for (int c = 0; c < 3; c++)
+                    D[a][b] += U[r][a] * S[r][c] * U[c][b];
+            if (a == b)
+                dmax = fmax(dmax, cabs(D[a][b]));
+            else
+                off = fmax(off, cabs(D[a][b]));
         }
-    dpz__pic_eigsym3((const double(*)[3])re, w, U);
     P(h,
-      "<h3>Principal values</h3><p>Eigenvalues of the symmetric real part of &#967; and "
-      "their axes (unit vectors in the grid frame):</p><table><tr><th></th>"
+      "<h3>Principal values</h3><p>Values of &#967; along its principal axes (unit "
+      "vectors in the grid frame):</p><table><tr><th></th>"
       "<th>value (10<sup>%d</sup> m<sup>3</sup>)</th>",
       e);
     if (isfinite(V) && V > 0)
         P(h, "<th>value / V</th>");
     P(h, "<th>axis (x, y, z)</th></tr>");
     for (int i = 0; i < 3; i++) {
-        P(h, "<tr><th>%d</th><td class=\"num\">%.5g</td>", i + 1, w[i] * pow(10.0, -e));
-        if (isfinite(V) && V > 0)
-            P(h, "<td class=\"num\">%.5g</td>", w[i] / V);
-        P(h, "<td class=\"num\">(%.3f, %.3f, %.3f)</td></tr>", U[0][i] + 0.0,
-          U[1][i] + 0.0, U[2][i] + 0.0);
+        char v[96];
+        fmt_complex(v, sizeof v, D[i][i] * pow(10.0, -e));
+        P(h, "<tr><th>%d</th><td class=\"num\">%s</td>", i + 1, v);
+        if (isfinite(V) && V > 0) {
+            fmt_complex(v, sizeof v, D[i][i] / V);
+            P(h, "<td class=\"num\">%s</td>", v);
+        }
+        double u[3];
+        for (int r = 0; r < 3; r++) /* no "-0.000" */
+            u[r] = fabs(U[r][i]) < 5e-4 ? 0.0 : U[r][i];
+        P(h, "<td class=\"num\">(%.3f, %.3f, %.3f)</td></tr>", u[0], u[1], u[2]);
     }
     P(h, "</table>");
-    if (imax > 1e-3 * remax)
+    if (dmax > 0 && off > 1e-6 * dmax)
         P(h,
-          "<p>&#967; has an imaginary part (largest %.3g of the real part): the static "
-          "permittivities are lossy; the principal values above describe the real part "
-          "only.</p>",
-          imax / remax);
+          "<p>The real and imaginary parts of &#967; do not share their principal axes "
+          "exactly (off-diagonal remainder %.3g of the largest value in this frame): the "
+          "axes above are a compromise and the values approximate.</p>",
+          off / dmax);
     return DPZ_OK;
 }
 

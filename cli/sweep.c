@@ -555,17 +555,28 @@ static int write_static(dpz__sweep_ctx *c, dpz__sweep_out *o)
     cJSON *s = cJSON_CreateObject();
     if (!s)
         return cli_fail("sweep: out of memory"), CLI_FAILED;
+    /* The fields of `dipolize static --json`, with chi = null rather than an
+     * unconverged number, and the wavelength the permittivities were taken at. */
     if (noconv) {
         o->any_failed = 1;
         cJSON_AddNullToObject(s, "chi");
+        cJSON_AddNullToObject(s, "chi_over_volume");
     } else {
+        double V = dpz_grid_volume(c->grid);
+        double complex n3[3][3];
+        for (int i = 0; i < 3; i++)
+            for (int j = 0; j < 3; j++)
+                n3[i][j] = chi[i][j] / V;
         cJSON_AddItemToObject(s, "chi",
                               cli_json_tensor3((const double complex(*)[3])chi));
+        cJSON_AddItemToObject(s, "chi_over_volume",
+                              cli_json_tensor3((const double complex(*)[3])n3));
     }
     cli_json_grid_facts(s, c->grid);
     cJSON_AddNumberToObject(s, "host_index", c->setup.host_index);
     if (c->mat.dispersive)
         cJSON_AddNumberToObject(s, "eps_at_wavelength_m", c->wl[0]);
+    cJSON_AddItemToObject(s, "materials", cli_materials_json(&c->mat, c->grid));
     cJSON *sol = cli_json_setup(&c->setup);
     if (sol) {
         double it[3], res[3];
@@ -575,6 +586,9 @@ static int write_static(dpz__sweep_ctx *c, dpz__sweep_out *o)
         }
         cJSON_AddItemToObject(sol, "iterations", cli_json_doubles(it, 3));
         cJSON_AddItemToObject(sol, "residuals", cli_json_doubles(res, 3));
+        cJSON *sts = cJSON_AddArrayToObject(sol, "statuses");
+        for (int i = 0; sts && i < 3; i++)
+            cJSON_AddItemToArray(sts, cJSON_CreateString(dpz_status_name(rhs[i].status)));
         cJSON_AddBoolToObject(sol, "converged", !noconv);
         cJSON_AddItemToObject(s, "solver", sol);
     }

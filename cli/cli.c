@@ -67,6 +67,13 @@ static const cli_opt solver_opts[] = {
     {"--tol", "X", "relative residual at which a solve stops (default 1e-8)", 0},
     {"--max-iter", "N", "iteration limit per solve (default 10000)", 0},
     {"--threads", "N", "FFTW/OpenMP threads (default 1)", 0},
+    {"--plan", "EFFORT",
+     "FFTW planner effort: estimate, measure or patient (default estimate; see --wisdom)",
+     0},
+    {"--wisdom", "FILE",
+     "FFTW wisdom file: loaded before planning (a missing file is created), saved at the "
+     "end; makes measure-planned runs repeatable and plans a batch of jobs once",
+     0},
     {"--max-memory", "SIZE", CLI_MAX_MEMORY_HELP, 0},
     {NULL, NULL, NULL, 0},
 };
@@ -220,6 +227,8 @@ int cli_setup_options(const cli_args *a, dpz_setup *s)
     if (given && (threads == 0 || threads > 1024))
         return cli_fail("%s: --threads must be between 1 and 1024", a->cmd->name);
     s->op.threads = (int)threads;
+    if ((rc = cli_plan_options(a, s)) != CLI_OK)
+        return rc;
 #ifdef _OPENMP
     omp_set_num_threads((int)threads);
 #endif

@@ -194,6 +194,9 @@ cJSON *cli_materials_json(const cli_materials *m, const dpz_grid *grid);
 /* Solver options (--dipole-model, --solver, --tol, --max-iter, --threads, --origin) into
  * `setup` (grid and materials are set by the caller). */
 int cli_setup_options(const cli_args *a, dpz_setup *setup);
+/* --plan (planner effort into setup->op.plan) and --wisdom FILE (loads FFTW wisdom now,
+ * saves it at exit); called by cli_setup_options. Prints the message on failure. */
+int cli_plan_options(const cli_args *a, dpz_setup *setup);
 
 /* ---- JSON and output */
 cJSON *cli_json_complex(double complex z);

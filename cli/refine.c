@@ -106,6 +106,7 @@ int cli_refine_build(const cli_args *a, const dpz_grid *base, size_t levels,
                          : "re-voxelized mesh";
     r->n = levels;
     r->grid[0] = (dpz_grid *)base; /* borrowed: see cli_refine_free */
+    double mesh_vol = -1.0;
     r->d[0] = base->d;
     for (size_t k = 1; k < levels; k++) {
         dpz_status s;
@@ -120,7 +121,7 @@ int cli_refine_build(const cli_args *a, const dpz_grid *base, size_t levels,
                                        &e);
             else
                 s = dpz_stl_voxelize_file(&g, mesh_path, unit_m, d, base->fill != NULL,
-                                          max_cells, NULL, &e);
+                                          max_cells, &mesh_vol, &e);
         }
         if (s != DPZ_OK) {
             cli_refine_free(r);
@@ -135,6 +136,13 @@ int cli_refine_build(const cli_args *a, const dpz_grid *base, size_t levels,
         double vs = dpz_shape_volume(&shape);
         r->v_true = vs > 0 ? vs : dpz_grid_volume(r->grid[levels - 1]);
         r->v_source = vs > 0 ? "shape formula" : "finest voxels";
+    } else if (kind == 2) {
+        r->v_true = mesh_vol;
+        r->v_source = "mesh";
+    } else {
+        /* A plain voxel set is its own object: split voxels keep its volume exactly. */
+        r->v_true = dpz_grid_volume(base);
+        r->v_source = "voxels";
     }
     return CLI_OK;
 }

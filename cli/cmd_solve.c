@@ -193,6 +193,12 @@ static cJSON *refine_json(const cli_refine *r)
     cJSON_AddItemToObject(o, "volumes_m3", cli_json_doubles(vol, r->n));
     cJSON_AddNumberToObject(o, "true_volume_m3", r->v_true);
     cJSON_AddStringToObject(o, "true_volume_from", r->v_source);
+    /* Split voxels describe the same staircase body at every level, so the limit is that
+     * body's continuum response, not the response of a smooth shape it approximates. */
+    cJSON_AddStringToObject(o, "result_belongs_to",
+                            strcmp(r->how, "split voxels") == 0
+                                ? "the staircase body of the voxel set itself"
+                                : "the true shape or mesh, re-voxelized");
     cJSON_AddStringToObject(
         o, "method",
         "value/V of each level fitted linearly in the spacing, "
@@ -230,7 +236,9 @@ static cJSON *error_tensor_json(const double complex *err)
 
 static void refine_table(const cli_refine *r)
 {
-    printf("refinement (%s), spacing -> voxels:", r->how);
+    printf("refinement (%s; the result belongs to %s), spacing -> voxels:", r->how,
+           strcmp(r->how, "split voxels") == 0 ? "the staircase body of the voxel set"
+                                               : "the true shape or mesh");
     for (size_t k = 0; k < r->n; k++)
         printf(" %.4g m -> %zu%s", r->d[k], r->grid[k]->n_occ, k + 1 < r->n ? "," : "");
     printf("\nvalues extrapolated linearly to zero spacing; error = extrapolation step + "

@@ -133,6 +133,28 @@ static void test_mie_efficiencies_match_scipy(void **state)
     }
 }
 
+/* Large size parameters (tests/data/extract/mie_ref.py, "large x"; scipy 1.10.1). This
+ * caught a too-low start of the log-derivative recursion (B&H's max(nmax, |mx|) + 15 gave
+ * 5e-6 errors at x = 100); an independent long-double evaluation agrees with scipy to
+ * 3e-14 here. Q_ext approaches the extinction-paradox value 2 (B&H 1983 sec. 4.4). */
+static void test_mie_large_x(void **state)
+{
+    (void)state;
+    const mie_qref big[] = {{2.25, 0.01, 30, 2.3475771739083742, 1.9996094427873583},
+                            {2.25, 0.01, 100, 2.1043751492311369, 1.4198571023342061}};
+    for (int i = 0; i < 2; i++) {
+        dpz_mie_result res;
+        assert_int_equal(
+            dpz_mie_sphere(CMPLX(big[i].eps_re, big[i].eps_im), big[i].x, &res, NULL),
+            DPZ_OK);
+        assert_close(res.q_ext, big[i].q_ext, 1e-12);
+        assert_close(res.q_sca, big[i].q_sca, 1e-12);
+    }
+    dpz_mie_result res;
+    assert_int_equal(dpz_mie_sphere(CMPLX(2.25, 0.01), 1000.0, &res, NULL), DPZ_OK);
+    assert_close(res.q_ext, 2.0, 0.02);
+}
+
 /* Public check values (8 significant digits) computed from the B&H 1983 formulas:
  * sphere eps_r 2.25, a = 50 nm, k = 1e7 1/m (x = 0.5). */
 static void test_mie_public_check_values(void **state)
@@ -271,6 +293,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_mie_matches_scipy),
         cmocka_unit_test(test_mie_efficiencies_match_scipy),
+        cmocka_unit_test(test_mie_large_x),
         cmocka_unit_test(test_mie_public_check_values),
         cmocka_unit_test(test_mie_small_x_limits),
         cmocka_unit_test(test_mie_lossless_identity),

@@ -54,3 +54,16 @@ for eps, x in cases:
         qs += (2 * n + 1) * (abs(a) ** 2 + abs(b) ** 2)
     print("    {%.17g, %.17g, %.17g, %.17g, %.17g}," % (
         complex(eps).real, complex(eps).imag, x, 2 * qe / x ** 2, 2 * qs / x ** 2))
+# Large size parameters (efficiencies only): the library's recursions against the direct
+# complex-argument evaluation.
+print("/* large x */")
+for eps, x in [(2.25 + 0.01j, 30.0), (2.25 + 0.01j, 100.0)]:
+    m = np.sqrt(complex(eps))
+    nmax = int(np.ceil(x + 4 * x ** (1 / 3) + 2)) + 2
+    qe = qs = 0.0
+    for n in range(1, nmax + 1):
+        a, b = ab(m, x, n)
+        qe += (2 * n + 1) * (a + b).real
+        qs += (2 * n + 1) * (abs(a) ** 2 + abs(b) ** 2)
+    print("    {%.17g, %.17g, %.17g, %.17g, %.17g}," % (
+        complex(eps).real, complex(eps).imag, x, 2 * qe / x ** 2, 2 * qs / x ** 2))

@@ -386,6 +386,38 @@ static const char *validity_verdict(double v, char *buf, size_t len)
     return buf;
 }
 
+/* Largest |m| k d over the occupied labels of `g`, m = sqrt(eps / n_h^2) the index
+ * relative to the host and k = 2 pi n_h / lambda0, so |m| k d = sqrt|eps| 2 pi d /
+ * lambda0. The coupled-dipole lattice resolves the internal field while |m| k d < 1
+ * (Draine & Flatau, JOSA A 11, 1491 (1994), sect. 2; common practice). */
+static double lattice_kd(const dpz_grid *g, const double complex eps[256], double lambda0)
+{
+    size_t counts[256];
+    dpz_grid_label_counts(g, counts);
+    double worst = 0.0;
+    for (int l = 1; l < 256; l++)
+        if (counts[l]) {
+            double v = sqrt(cabs(eps[l])) * 2.0 * 3.14159265358979323846 * g->d / lambda0;
+            if (v > worst)
+                worst = v;
+        }
+    return worst;
+}
+
+#define LATTICE_KD_LIMIT 1.0
+
+static const char *lattice_verdict(double mkd, char *buf, size_t len)
+{
+    if (mkd < LATTICE_KD_LIMIT)
+        snprintf(buf, len, "ok (|m| k d = %.3g < 1)", mkd);
+    else
+        snprintf(buf, len,
+                 "WARNING: |m| k d = %.3g exceeds 1: the lattice is too coarse for this "
+                 "wavelength and material; use a smaller spacing",
+                 mkd);
+    return buf;
+}
+
 static const char *recip_verdict(double r, double tol, char *buf, size_t len)
 {
     if (r <= RECIP_FACTOR * tol)
@@ -528,7 +560,10 @@ static int run_tensor(const cli_args *a)
     cJSON *rj = NULL;
     if (levels)
         rj = refine_json(&ref);
-    char v1[256], v2[256], v3[256];
+    char v1[256], v2[256], v3[256], v4[256];
+    /* The finest lattice decides what the result can resolve. */
+    double mkd = lattice_kd(levels ? ref.grid[nl - 1] : j.grid, j.setup.eps_label, lam);
+    lattice_verdict(mkd, v4, sizeof v4);
     validity_verdict(t->dipole_validity, v1, sizeof v1);
     recip_verdict(t->reciprocity, j.setup.solve.tol, v2, sizeof v2);
     energy_verdict(t, j.setup.solve.tol, v3, sizeof v3);
@@ -597,7 +632,9 @@ static int run_tensor(const cli_args *a)
         cJSON_AddStringToObject(vd, "dipole_picture", v1);
         cJSON_AddStringToObject(vd, "reciprocity", v2);
         cJSON_AddStringToObject(vd, "energy", v3);
+        cJSON_AddStringToObject(vd, "lattice", v4);
         cJSON_AddItemToObject(dg, "verdicts", vd);
+        cJSON_AddNumberToObject(dg, "lattice_mkd", mkd);
         cJSON_AddItemToObject(o, "diagnostics", dg);
         if (want_x && s == DPZ_OK) {
             cJSON *x = cJSON_CreateObject();
@@ -659,6 +696,7 @@ static int run_tensor(const cli_args *a)
         printf("\ndipole picture: %s\n", v1);
         printf("reciprocity:    %s\n", v2);
         printf("energy:         %s\n", v3);
+        printf("lattice:        %s\n", v4);
         if (want_x && s == DPZ_OK)
             printf("cross sections (+z, x-pol) [m^2]: ext %.5e abs %.5e sca %.5e; dipole "
                    "model "

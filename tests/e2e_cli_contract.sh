@@ -198,6 +198,10 @@ k = d["k_per_m"]
 inv = 1 / ee[0][0]
 assert abs(inv.imag + k**3 / (6 * math.pi)) < 0.02 * k**3 / (6 * math.pi), inv
 assert d["origin_m"] == [0.0, 0.0, 0.0] or max(abs(v) for v in d["origin_m"]) < 1e-15
+# Lattice criterion |m| k d < 1 (Draine & Flatau 1994): sqrt(2.25) 2 pi (1 nm)/(200 nm)
+mkd = 1.5 * 2 * math.pi * 1e-9 / 200e-9
+assert abs(d["diagnostics"]["lattice_mkd"] - mkd) < 1e-12 * mkd
+assert d["diagnostics"]["verdicts"]["lattice"].startswith("ok")
 ' || bad "tensor"
 # Sphere against Mie theory: radius 50 nm at 6.25 nm (16 dipoles per diameter), eps 2.25,
 # k = 1e7 1/m. Reference: a_ee = 6 pi i a_1 / k^3, a_mm = 6 pi i b_1 / k^3 with a_1, b_1
@@ -223,6 +227,10 @@ for i in range(3):
     assert abs(M[i][i] - mm) < 0.05 * abs(mm), (M[i][i], mm)
 assert d["diagnostics"]["dipole_validity"] < 0.01
 ' || bad "tensor against Mie"
+run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 20nm --json
+[ "$(rc)" = 0 ] && pycheck "tensor: coarse lattice flagged" '
+assert d["diagnostics"]["verdicts"]["lattice"].startswith("WARNING")
+' || bad "coarse lattice verdict"
 run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm
 [ "$(rc)" = 0 ] && grep -q 'dipole picture: ' "$tmp/out" && grep -q 'a_mm / V' "$tmp/out" && ok "tensor table with verdicts" || bad "tensor table"
 

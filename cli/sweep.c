@@ -293,6 +293,7 @@ struct dpz__sweep_out {
     double t_start;     /* session start, s (monotonic) */
     int any_failed;     /* some wavelength (or the static solve) did not converge */
     int progress;       /* 0 quiet, 1 one line per wavelength, 2 terminal line */
+    int lock_fd;        /* DIR/.lock, locked while this process writes DIR; -1 none */
 };
 
 static dpz_status write_summary(dpz__sweep_out *o, dpz_err *err)
@@ -379,7 +380,7 @@ static int is_setup_name(const char *name)
     for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
         if (strcmp(name, names[i]) == 0)
             return 1;
-    return is_temp_name(name);
+    return strcmp(name, ".lock") == 0 || is_temp_name(name);
 }
 
 /* -1: absent, 0: empty directory, 1: has entries, 2: not a directory, 3: holds only
@@ -418,6 +419,44 @@ static void remove_temp_files(const char *dir)
             unlink(path);
         }
     closedir(d);
+}
+
+/* One writer per directory: a POSIX record lock on DIR/.lock, held until the process
+ * ends (the system releases it on any exit, SIGKILL included). A second sweep into the
+ * same DIR (a requeued job while the first still runs) is refused instead of
+ * interleaving its rows. */
+static int lock_dir(dpz__sweep_out *o)
+{
+    char path[4096];
+    snprintf(path, sizeof path, "%s/.lock", o->dir);
+    int fd = open(path, O_RDWR | O_CREAT, 0644);
+    if (fd < 0)
+        return cli_fail("sweep: cannot create %s: %s", path, strerror(errno));
+    struct flock fl;
+    memset(&fl, 0, sizeof fl);
+    fl.l_type = F_WRLCK;
+    fl.l_whence = SEEK_SET;
+    if (fcntl(fd, F_SETLK, &fl) != 0) {
+        close(fd);
+        return cli_fail("sweep: %s is being written by another running sweep (it holds "
+                        "%s); wait for it to end",
+                        o->dir, path);
+    }
+    o->lock_fd = fd;
+    return CLI_OK;
+}
+
+static void unlock_dir(dpz__sweep_out *o, int remove_file)
+{
+    if (o->lock_fd < 0)
+        return;
+    if (remove_file) {
+        char path[4096];
+        snprintf(path, sizeof path, "%s/.lock", o->dir);
+        unlink(path);
+    }
+    close(o->lock_fd);
+    o->lock_fd = -1;
 }
 
 static int open_tables(dpz__sweep_out *o)
@@ -464,13 +503,23 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
     if (dpz_sweep_read_file(path, &old_text, &len, &e) != DPZ_OK)
         return cli_fail("sweep: --resume: %s is not a sweep directory (%s)", o->dir,
                         e.msg);
-    const char *which = dpz_sweep_inputs_differ(fresh_text, old_text, 1);
-    if (which) {
+    cJSON *old = cJSON_Parse(old_text);
+    if (!cJSON_IsObject(old)) {
         free(old_text);
+        cJSON_Delete(old);
+        return cli_fail("sweep: --resume: %s is damaged (not valid JSON)", path);
+    }
+    const char *which = dpz_sweep_inputs_differ(fresh_text, old_text, 1);
+    free(old_text);
+    if (which) {
+        cJSON_Delete(old);
         return cli_fail("sweep: %s was made with different inputs: %s", o->dir, which);
     }
-    cJSON *old = cJSON_Parse(old_text);
-    free(old_text);
+    int rc = lock_dir(o);
+    if (rc != CLI_OK) {
+        cJSON_Delete(old);
+        return rc;
+    }
     cJSON *res = cJSON_GetObjectItemCaseSensitive(old, "results");
     if (!cJSON_IsArray(res)) {
         cJSON_Delete(old);
@@ -616,6 +665,10 @@ static int create_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, int existed)
 {
     if (!existed && mkdir(o->dir, 0755) != 0)
         return cli_fail("sweep: cannot create %s: %s", o->dir, strerror(errno));
+    int rc = lock_dir(o);
+    if (rc != CLI_OK)
+        return rc;
+    remove_temp_files(o->dir);
     dpz_err e;
     char head[2048];
     for (int t = 0; t < DPZ_TABLE_COUNT; t++) {
@@ -624,7 +677,7 @@ static int create_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, int existed)
                                    len, &e) != DPZ_OK)
             return cli_fail_err(NULL, &e), CLI_FAILED;
     }
-    int rc = write_static(c, o);
+    rc = write_static(c, o);
     if (rc != CLI_OK)
         return rc;
     if (write_summary(o, &e) != DPZ_OK)
@@ -878,6 +931,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     memset(&o, 0, sizeof o);
     for (int t = 0; t < DPZ_TABLE_COUNT; t++)
         o.fd[t] = -1;
+    o.lock_fd = -1;
     o.dir = cli_get(a, "-o");
     o.progress = a->quiet ? 0 : isatty(STDERR_FILENO) ? 2 : 1;
     char file_hex[65], grid_hex[65];
@@ -906,7 +960,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     else if (resume)
         rc = resume_dir(c, &o, fresh);
     free(fresh);
-    if (rc == CLI_OK && state >= 0)
+    if (rc == CLI_OK && resume)
         remove_temp_files(o.dir);
     /* --resume of a run killed before its summary.json existed starts it afresh. */
     if (rc == CLI_OK && !resume)
@@ -915,6 +969,10 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
         rc = open_tables(&o);
     dpz__mpi_bcast(rc);
     if (rc != CLI_OK) {
+        for (int t = 0; t < DPZ_TABLE_COUNT; t++)
+            if (o.fd[t] >= 0)
+                close(o.fd[t]);
+        unlock_dir(&o, 0);
         cJSON_Delete(o.summary);
         return rc;
     }
@@ -958,6 +1016,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     for (int t = 0; t < DPZ_TABLE_COUNT; t++)
         if (o.fd[t] >= 0)
             close(o.fd[t]);
+    unlock_dir(&o, 1);
     cJSON_Delete(o.summary);
     if (st != DPZ_OK) {
         if (o.progress == 2)

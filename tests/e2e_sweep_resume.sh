@@ -72,8 +72,8 @@ for s in (a, b):
         r.pop("seconds")
 sys.exit(0 if a == b else 1)
 PY
-    [ ! -e "$2/restart.0.bin" ] && [ ! -e "$2/restart.1.bin" ] ||
-        fail "$3: restart state left behind after the run finished"
+    [ ! -e "$2/restart.0.bin" ] && [ ! -e "$2/restart.1.bin" ] && [ ! -e "$2/.lock" ] ||
+        fail "$3: restart state or lock left behind after the run finished"
 }
 
 "$bin" "${args[@]}" -o "$tmp/A" || fail "uninterrupted run (exit $?)"
@@ -97,6 +97,26 @@ for k in 1 2 3; do
 done
 "$bin" "${args[@]}" -o "$tmp/C" --resume || fail "C: final resume (exit $?)"
 same_tables "$tmp/A" "$tmp/C" "C (killed at random moments)"
+
+# D: a second sweep into a directory that a running sweep is writing (a requeued job
+# while the first still runs) is refused without touching it.
+"$bin" "${args[@]}" -o "$tmp/D" &
+pid=$!
+for i in $(seq 1 600); do
+    [ "$(rows "$tmp/D")" -ge 1 ] && break
+    sleep 0.05
+done
+"$bin" "${args[@]}" -o "$tmp/D" --resume 2>"$tmp/err"
+rc=$?
+if kill -0 "$pid" 2>/dev/null; then
+    [ "$rc" = 2 ] && grep -q "being written by another running sweep" "$tmp/err" ||
+        fail "D: a second writer was not refused (exit $rc): $(cat "$tmp/err")"
+fi
+kill -9 "$pid" 2>/dev/null
+wait "$pid" 2>/dev/null
+pid=
+"$bin" "${args[@]}" -o "$tmp/D" --resume || fail "D: resume after the refusal (exit $?)"
+same_tables "$tmp/A" "$tmp/D" "D (second writer refused)"
 
 # Resuming a finished run changes nothing.
 cp -r "$tmp/A" "$tmp/A2"

@@ -795,6 +795,21 @@ static void progress(const dpz__sweep_ctx *c, const dpz__sweep_out *o,
     fflush(stderr);
 }
 
+/* On a terminal: which wavelength is being solved now (a solve may take minutes). */
+static void progress_start(const dpz__sweep_ctx *c, const dpz__sweep_out *o, size_t p)
+{
+    if (o->progress != 2)
+        return;
+    size_t session = o->done - o->done_before, left = c->shard_size - o->done;
+    char eta[32];
+    format_duration(session ? (now_s() - o->t_start) / (double)session * (double)left
+                            : -1.0,
+                    eta, sizeof eta);
+    fprintf(stderr, "\rdipolize: sweep %zu/%zu  %.6g nm  solving...  ETA %s\033[K",
+            o->done + 1, c->shard_size, c->wl[p] * 1e9, eta);
+    fflush(stderr);
+}
+
 dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                              const dpz_sweep_result *r, double complex *const warm[6],
                              dpz_err *err)
@@ -1006,6 +1021,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
         dpz_sweep_result r;
         while (st == DPZ_OK && o.done < c->shard_size) {
             size_t p = dpz_sweep_shard_position(o.done, c->shard_index, c->shard_count);
+            progress_start(c, &o, p);
             st = dpz__sweep_compute(c, p, warm, &r, &e);
             if (st == DPZ_OK)
                 st = dpz__sweep_record(c, &o, &r, warm, &e);

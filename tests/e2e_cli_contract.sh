@@ -247,6 +247,11 @@ assert d["radiative_check"] < 0.05, d["radiative_check"]
 C0 = tensor(d["C0"])
 # C0 = V chi^-1: sphere (eps+2)/(3(eps-1)) = 1.1333 (Bohren & Huffman 5.15), 3% as above
 assert abs(C0[0][0] - 4.25 / 3.75) < 0.03 * 4.25 / 3.75, C0[0][0]
+# Sphere, origin at its centre: inverting the small-x series of the Mie coefficient a_1
+# (Bohren & Huffman 1983, sect. 5.2; series quoted from memory) gives
+# C2 = -(eps-2)/(5(eps-1)) = -0.04 at eps 2.25; 12 dipoles per diameter land within ~5%.
+C2 = tensor(d["C2"])
+assert abs(C2[0][0] - (-0.04)) < 0.15 * 0.04, C2[0][0]
 ' || bad "expand"
 
 # ---- bad input: exit 2, one message, no file ----------------------------------------------

@@ -3,6 +3,7 @@
 #include "dpz_tblock.h"
 
 #include <math.h>
+#include <omp.h>
 #include <string.h>
 
 #include "dpz_vswf.h"
@@ -75,9 +76,9 @@ dpz_status dpz_tblock_project(const dpz_grid *grid, const double origin[3], doub
     memset(sq, 0, cnt * sizeof sq[0]);
     memset(sp, 0, cnt * sizeof sp[0]);
     int bad = 0;
-    /* Voxels are independent: each thread sums its share, then the partial sums are
-     * added in a critical section (the order of that addition varies between runs only in
-     * the last bits). */
+    /* Voxels are independent: each thread sums its share (a fixed block of voxels under
+     * the static schedule), then the partial sums are added in thread order, so that a
+     * run is reproducible bit for bit for a given thread count. */
 #pragma omp parallel
     {
         double complex lq[DPZ_VSWF_NMAX * (DPZ_VSWF_NMAX + 2)];
@@ -112,14 +113,22 @@ dpz_status dpz_tblock_project(const dpz_grid *grid, const double origin[3], doub
                          conj(Mv[3 * i + 2]) * pv[2];
             }
         }
-#pragma omp critical(dpz_tblock_project)
-        {
-            for (size_t i = 0; i < cnt; i++) {
-                sq[i] += lq[i];
-                sp[i] += lp[i];
+        /* One iteration per thread; the static schedule with chunk 1 gives iteration t to
+         * thread t (OpenMP 4.5, 2.7.1), and `ordered` runs the iterations in order. A
+         * critical section would add the partial sums in the order the threads arrive,
+         * which changes the last bits from run to run with three or more threads. */
+        int nt = omp_get_num_threads();
+#pragma omp for ordered schedule(static, 1)
+        for (int t = 0; t < nt; t++) {
+#pragma omp ordered
+            {
+                for (size_t i = 0; i < cnt; i++) {
+                    sq[i] += lq[i];
+                    sp[i] += lp[i];
+                }
+                if (lbad > bad)
+                    bad = lbad;
             }
-            if (lbad > bad)
-                bad = lbad;
         }
         dpz__free(Mbig);
         dpz__free(Nbig);

@@ -1,15 +1,16 @@
 #!/usr/bin/env bash
 # e2e_determinism.sh: the same inputs and thread count give the same bytes; thread counts
 # 1 and 2 agree to 1e-12 relative.
-#  1. tensor --json (with cross sections) twice with --threads 2: identical after removing
-#     the wall-clock fields ("seconds"), the only values that may differ between runs;
+#  1. tensor --json twice with --threads 2 (with cross sections) and twice with --threads 3:
+#     identical after removing the wall-clock fields ("seconds"), the only values that may
+#     differ between runs;
 #  2. a three-wavelength sweep twice with --threads 2: alpha.csv, cross_sections.csv,
 #     diagnostics.csv and static.json byte-identical, summary.json identical without
 #     "seconds";
 #  3. tensor, static and expand with --threads 1 against --threads 2: every number of the
-#     JSON output agrees to 1e-12 relative to the largest magnitude of its field (alpha
-#     blocks, t_block, chi, C0..C4, ...), so that rounding-level entries of a block are
-#     compared on the scale of that block; iteration counts are equal.
+#     JSON output agrees to 1e-12 relative to the scale of its quantity (the 6x6 tensor,
+#     the T block, chi, ...; see the comparison below), except the fitted size-expansion
+#     coefficients C2..C4, whose fit amplifies rounding by 1e4 (1e-8 there).
 # The shape is a rotated ellipsoid (no symmetry that could hide an ordering bug) of a
 # lossy dielectric, so the solves converge in a few dozen iterations.
 # Usage: e2e_determinism.sh PATH_TO_DIPOLIZE
@@ -40,6 +41,11 @@ mat=(--eps 2.25+0.15i)
 for r in a b; do
     run "tensor2$r" tensor "$tmp/e.vtk" "${mat[@]}" --wavelength 550nm --cross-sections \
         --threads 2 --json
+done
+# Three threads: partial sums of three threads added in arrival order would differ in the
+# last bits from run to run (two partial sums commute, three do not associate).
+for r in a b; do
+    run "tensor3$r" tensor "$tmp/e.vtk" "${mat[@]}" --wavelength 550nm --threads 3 --json
 done
 # 2. sweep, same threads, twice
 for r in a b; do
@@ -101,15 +107,40 @@ def numbers(o, path=""):
 
 bad = 0
 # Same thread count: identical apart from timings.
-for a, b in [("tensor2a", "tensor2b"), ("sweepa/summary.json", "sweepb/summary.json")]:
+for a, b in [("tensor2a", "tensor2b"), ("tensor3a", "tensor3b"),
+             ("sweepa/summary.json", "sweepb/summary.json")]:
     if strip(load(a)) == strip(load(b)):
         print(f"ok    {a} and {b} identical apart from timings")
     else:
         print(f"FAIL  {a} and {b} differ beyond timings")
         bad += 1
 
-# Thread counts 1 and 2: every number within REL of its field's scale.
-skip = ("/solver/options/threads", "/options/threads", "/solver/threads")
+# Thread counts 1 and 2. Threads split the FFTs and the sums over voxels differently, so
+# the results differ by rounding only; each number is compared on the scale of the
+# quantity it belongs to (the largest magnitude of that quantity in either run): the whole
+# 6x6 tensor (all four blocks are in m^3, and em/me vanish up to rounding for a
+# centrosymmetric particle), the T block, chi, C0, each cross section, each eigenvalue
+# list. Dimensionless error measures (residuals, reciprocity, energy balance, relative
+# differences) are compared as absolute numbers.
+# The size-expansion coefficients C2, C3, C4 are fitted to V a_ee^-1(x) - C0, which is
+# O(x^2) for x = 0.1..0.4: the fit divides rounding differences of a_ee^-1 by up to
+# x^4 = 1e-4 and the subtraction cancels about four digits, so these (and the fit residual
+# and radiative check built from them) are held to REL / 1e-4 instead.
+REL_FIT = REL / 1e-4
+ABSOLUTE = ("residuals", "reciprocity", "energy_balance", "rel_diff", "dipole_validity")
+FITTED = ("C2", "C3", "C4", "fit_residual", "radiative_check")
+SKIP = ("threads",)
+
+
+def key(p):
+    """(group, field) of a number's path: the group shares one scale."""
+    parts = [q.split("[")[0] for q in p.strip("/").split("/")]
+    top = parts[0]
+    if top in ("diagnostics", "cross_sections", "solver") and len(parts) > 1:
+        return "/".join(parts[:2]), parts[-1]
+    return top, parts[-1]
+
+
 for one, two in [("tensor1", "tensor2a"), ("static1", "static2"), ("expand1", "expand2")]:
     x, y = strip(load(one)), strip(load(two))
     nx, ny = dict(numbers(x)), dict(numbers(y))
@@ -117,31 +148,36 @@ for one, two in [("tensor1", "tensor2a"), ("static1", "static2"), ("expand1", "e
         print(f"FAIL  {one} and {two} hold different fields")
         bad += 1
         continue
-    # Scale of a number: the largest magnitude among the numbers of its top-level field
-    # and block (for alpha: its 3x3 block), in either run.
-    def group(p):
-        parts = p.strip("/").split("/")
-        return "/".join(parts[:2]).split("[")[0]
     scale = {}
     for p in nx:
-        g = group(p)
+        g, _ = key(p)
         scale[g] = max(scale.get(g, 0.0), abs(nx[p]), abs(ny[p]))
-    worst, where, n = 0.0, "", 0
+    worst, where, n, fails = 0.0, "-", 0, []
     for p in nx:
-        if any(p.endswith(s) for s in skip):
+        g, field = key(p)
+        if field in SKIP:
             continue
-        s = scale[group(p)]
+        top = g.split("/")[0]
+        if field in ABSOLUTE or g.endswith(ABSOLUTE):
+            s, tol = 1.0, REL
+        elif top in FITTED:
+            s, tol = max(scale[g], 1.0) if top in ("fit_residual", "radiative_check") else scale[g], REL_FIT
+        else:
+            s, tol = scale[g], REL
         if s == 0.0:
             continue
         d = abs(nx[p] - ny[p]) / s
         n += 1
-        if d > worst:
-            worst, where = d, p
-    if worst <= REL:
-        print(f"ok    {one} vs {two}: {n} numbers agree, worst {worst:.2e} relative ({where or '-'})")
-    else:
-        print(f"FAIL  {one} vs {two}: {where} differs by {worst:.2e} relative (> {REL})")
+        if d > tol:
+            fails.append(f"{p}: {nx[p]!r} vs {ny[p]!r} ({d:.2e} > {tol:.0e})")
+        if d / tol > worst:
+            worst, where = d / tol, p
+    if fails:
+        print(f"FAIL  {one} vs {two}: {len(fails)} of {n} numbers differ; first: {fails[0]}")
         bad += 1
+    else:
+        print(f"ok    {one} vs {two}: {n} numbers agree; worst at {worst:.2g} of its "
+              f"tolerance ({where})")
 sys.exit(1 if bad else 0)
 PYEOF
 [ "$fail" = 0 ] && echo "determinism: all checks passed"

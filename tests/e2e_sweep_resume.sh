@@ -33,12 +33,12 @@ rows() { # finished wavelengths visible in DIR/diagnostics.csv
 }
 
 # kill_after DIR N: runs (resuming) into DIR and kills it with SIGKILL as soon as N
-# wavelengths are in its tables (or after at most 30 s).
+# wavelengths are in its tables (or after at most 60 s).
 kill_after() {
     local dir=$1 n=$2 i
     "$bin" "${args[@]}" -o "$dir" --resume &
     pid=$!
-    for i in $(seq 1 600); do
+    for i in $(seq 1 1200); do
         [ "$(rows "$dir")" -ge "$n" ] && break
         kill -0 "$pid" 2>/dev/null || break
         sleep 0.05
@@ -48,14 +48,15 @@ kill_after() {
     pid=
 }
 
-# kill_at DIR SECONDS: runs (resuming) into DIR and kills it after SECONDS.
+# kill_at DIR MS: runs (resuming) into DIR and kills it after MS milliseconds.
 kill_at() {
     "$bin" "${args[@]}" -o "$1" --resume &
     pid=$!
-    sleep "$2"
+    sleep "$(printf '%d.%03d' $(($2 / 1000)) $(($2 % 1000)))"
     kill -9 "$pid" 2>/dev/null
     wait "$pid" 2>/dev/null
     pid=
+    echo "  $(basename "$1"): SIGKILL after $2 ms, $(rows "$1") of 8 wavelengths on disk"
 }
 
 same_tables() { # same_tables DIR_A DIR_B WHAT
@@ -76,7 +77,9 @@ PY
         fail "$3: restart state or lock left behind after the run finished"
 }
 
+t0=$(date +%s%N)
 "$bin" "${args[@]}" -o "$tmp/A" || fail "uninterrupted run (exit $?)"
+run_ms=$((($(date +%s%N) - t0) / 1000000)) # wall time of a whole run, ms
 [ "$(rows "$tmp/A")" = 8 ] || fail "uninterrupted run: $(rows "$tmp/A") of 8 wavelengths"
 
 # B: killed after 2, then after 5 finished wavelengths; then a damaged tail (a row cut
@@ -89,11 +92,12 @@ printf '3.5e-07,ee,0,0,1.25e-2' >>"$tmp/B/alpha.csv"
 "$bin" "${args[@]}" -o "$tmp/B" --resume || fail "B: final resume (exit $?)"
 same_tables "$tmp/A" "$tmp/B" "B (killed twice)"
 
-# C: killed at pseudo-random moments (fixed seed), including before the first wavelength.
+# C: killed at pseudo-random moments (fixed seed), the first one early (during the set-up
+# or the first wavelength).
 RANDOM=2385
-kill_at "$tmp/C" 0.2
-for k in 1 2 3; do
-    kill_at "$tmp/C" "$((RANDOM % 20 / 10)).$((RANDOM % 10))"
+kill_at "$tmp/C" $((run_ms / 20))
+for k in 1 2 3 4; do # within the time the remaining wavelengths need
+    kill_at "$tmp/C" $((RANDOM % (run_ms * (8 - $(rows "$tmp/C")) / 8 + 1)))
 done
 "$bin" "${args[@]}" -o "$tmp/C" --resume || fail "C: final resume (exit $?)"
 same_tables "$tmp/A" "$tmp/C" "C (killed at random moments)"

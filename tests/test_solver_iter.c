@@ -449,15 +449,14 @@ static void test_iter_static_sphere_polarizability(void **state)
 
 /* Energy conservation of the discrete-dipole solution for a lossless material (optical
  * theorem; Draine 1988, sec. II and eqs. 34-36): with Im(1/alpha) = -k^3/(6 pi) exactly
- * (cm-rr and ldr for real eps), the extinction cross section from the forward amplitude,
- *   C_ext = k Im(sum_j E_inc(r_j)^* . p~_j) / |E0|^2,
- * equals the scattering cross section from the far field, computed independently of the
- * interaction kernel by quadrature over directions:
- *   C_sca = (k^4/(16 pi^2)) int |P - (P . n) n|^2 dOmega,  P(n) = sum_j p~_j e^{-ik
- * n.r_j} (Jackson eq. 9.22, number from memory, for the far field of a dipole, summed
- * with phases). Gauss-Legendre in cos(theta) x trapezoid in phi integrate the
- * band-limited integrand (k r_max ~ 1.5) to rounding; TOL_ENERGY allows for the solver
- * tolerance 1e-11. */
+ * (cm-rr, ldr and igt for real eps), the extinction cross section from the forward
+ * amplitude, C_ext = k Im(sum_j E_inc(r_j)^* . p~_j) / |E0|^2, equals the scattering
+ * cross section from the far field, computed independently of the interaction kernel by
+ * quadrature over directions: C_sca = (k^4/(16 pi^2)) int |P - (P . n) n|^2 dOmega,  P(n)
+ * = sum_j p~_j e^{-ik n.r_j} (Jackson eq. 9.22, number from memory, for the far field of
+ * a dipole, summed with phases). Gauss-Legendre in cos(theta) x trapezoid in phi
+ * integrate the band-limited integrand (k r_max ~ 1.5) to rounding; TOL_ENERGY allows for
+ * the solver tolerance 1e-11. */
 #define TOL_ENERGY 1e-8
 static double sca_cross_section(const dpz_grid *g, const double complex *p, double k)
 {
@@ -517,8 +516,8 @@ static double sca_cross_section(const dpz_grid *g, const double complex *p, doub
 static void test_iter_energy_conservation_lossless(void **state)
 {
     (void)state;
-    const dpz_dipole_model models[] = {DPZ_DIPOLE_CMRR, DPZ_DIPOLE_LDR};
-    for (int m = 0; m < 2; m++) {
+    const dpz_dipole_model models[] = {DPZ_DIPOLE_CMRR, DPZ_DIPOLE_LDR, DPZ_DIPOLE_IGT};
+    for (int m = 0; m < 3; m++) {
         /* A non-symmetric particle: an L-shaped block, eps = 3.1 relative to the host. */
         dpz_grid *g = NULL;
         dpz_err err;

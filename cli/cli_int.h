@@ -142,9 +142,9 @@ int cli_resolve_mesh_path(const char *vtk_path, const char *rec, char *out, size
 
 /* ---- refinement (refine.c) */
 #define CLI_REFINE_MAX 4
-/* The object on LEVELS lattices, coarse to fine: grid[0] is the caller's grid (borrowed),
- * the others are owned. Shapes and meshes are re-voxelized at d / (1 + k/2); plain voxel
- * sets have each voxel split into (k+1)^3. */
+/* The object on LEVELS lattices, coarse to fine (dpz_refine_levels): grid[0] is a copy of
+ * the caller's grid; all are owned. Shapes and meshes are re-voxelized at d / (1 + k/2);
+ * plain voxel sets have each voxel split into (k+1)^3. */
 typedef struct cli_refine {
     size_t n;
     dpz_grid *grid[CLI_REFINE_MAX];
@@ -164,8 +164,8 @@ void cli_refine_free(cli_refine *r);
  * of the imaginary part) as the real and imaginary parts. Callers extrapolate results
  * divided by each level's voxel volume and multiply by v_true: the staircase volume
  * oscillates with the spacing and would otherwise dominate the fit. */
-void cli_extrapolate(size_t n, const double *d, const double complex *v, size_t m,
-                     double complex *out, double complex *err);
+int cli_extrapolate(size_t n, const double *d, const double complex *v, size_t m,
+                    double complex *out, double complex *err);
 
 /* ---- materials */
 typedef struct cli_materials {

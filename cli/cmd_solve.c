@@ -201,9 +201,10 @@ static cJSON *refine_json(const cli_refine *r)
                                 : "the true shape or mesh, re-voxelized");
     cJSON_AddStringToObject(
         o, "method",
-        "value/V of each level fitted linearly in the spacing, "
-        "extrapolated to zero spacing, times the true volume; error = "
-        "extrapolation step + largest fit residual");
+        "value/V of each level fitted by least squares with a line in the spacing, "
+        "extrapolated to zero spacing, times the true volume; error = spread between the "
+        "linear and quadratic fits + 2 standard errors + largest residual (2 levels: the "
+        "extrapolation step)");
     return o;
 }
 
@@ -220,12 +221,14 @@ static int extrapolate_normalized(const cli_refine *r, const double complex *v, 
         for (size_t e = 0; e < m; e++)
             w[k * m + e] = v[k * m + e] / vk;
     }
-    cli_extrapolate(r->n, r->d, w, m, out, err);
+    int rc = cli_extrapolate(r->n, r->d, w, m, out, err);
+    free(w);
+    if (rc != CLI_OK)
+        return rc;
     for (size_t e = 0; e < m; e++) {
         out[e] *= r->v_true;
         err[e] *= r->v_true;
     }
-    free(w);
     return CLI_OK;
 }
 
@@ -241,9 +244,9 @@ static void refine_table(const cli_refine *r)
                                                : "the true shape or mesh");
     for (size_t k = 0; k < r->n; k++)
         printf(" %.4g m -> %zu%s", r->d[k], r->grid[k]->n_occ, k + 1 < r->n ? "," : "");
-    printf("\nvalues extrapolated linearly to zero spacing; error = extrapolation step + "
-           "fit "
-           "residual\n");
+    printf("\nvalues extrapolated linearly to zero spacing; error = spread to a "
+           "quadratic fit "
+           "+ 2 standard errors + largest residual\n");
 }
 
 static int run_static(const cli_args *a)

@@ -40,36 +40,43 @@ static void test_refine_extrapolate_line(void **state)
 {
     (void)state;
     /* v(d) = (2.385 - 0.71 i) + (1.7e9 + 0.3e9 i) d, exactly linear: the fit returns the
-     * intercept and an error estimate at rounding level. */
+     * intercept, and with three levels the error estimate (model spread, standard error,
+     * residual) is at rounding level. */
     const double d[3] = {2e-9, 4.0 / 3.0 * 1e-9, 1e-9};
     double complex v[3 * 2], out[2], err[2];
     for (int k = 0; k < 3; k++) {
         v[2 * k] = CMPLX(2.385, -0.71) + CMPLX(1.7e9, 0.3e9) * d[k];
         v[2 * k + 1] = CMPLX(-4.2, 0.0) - 2.0e8 * d[k];
     }
-    cli_extrapolate(3, d, v, 2, out, err);
+    assert_int_equal(cli_extrapolate(3, d, v, 2, out, err), CLI_OK);
     assert_cclose(out[0], CMPLX(2.385, -0.71), TOL_FIT);
     assert_cclose(out[1], CMPLX(-4.2, 0.0), TOL_FIT);
-    /* error = |v0 - v(finest)| + residual: the step from d = 1 nm to 0. */
+    assert_true(creal(err[0]) < 1e-12 && cimag(err[0]) < 1e-12);
+    /* Two levels: the line through both points; the error is the extrapolation step from
+     * the finest level, 1.7e9 * 1e-9 = 1.7 (real part) and 0.3 (imaginary part). */
+    assert_int_equal(cli_extrapolate(2, d + 1, v + 2, 2, out, err), CLI_OK);
+    assert_cclose(out[0], CMPLX(2.385, -0.71), TOL_FIT);
     assert_close(creal(err[0]), 1.7, 1e-9);
     assert_close(cimag(err[0]), 0.3, 1e-9);
-    /* Two levels: the line through both points. */
-    cli_extrapolate(2, d, v, 2, out, err);
-    assert_cclose(out[0], CMPLX(2.385, -0.71), TOL_FIT);
 }
 
 static void test_refine_extrapolate_residual(void **state)
 {
     (void)state;
-    /* Values 1.0, 0.5, 1.0 at d = 3, 2, 1: the fitted line is flat at 5/6 with residuals
-     * 1/6 and 1/3; the estimate adds |5/6 - 1| + 1/3 = 1/2 (worked by hand). */
+    /* Values 1.0, 0.5, 1.0 at d = 3, 2, 1 (worked by hand): the line is flat at 5/6 with
+     * residuals 1/6, -1/3, 1/6; the parabola through the points is 0.5 + 0.5 (d - 2)^2,
+     * 2.5 at d = 0; the standard error of the intercept is sqrt(s^2 (1/3 + 4/2)) with
+     * s^2 = (1/6) / 1, i.e. sqrt(7/18). Error = |5/6 - 5/2| + 2 sqrt(7/18) + 1/3. */
     const double d[3] = {3.0, 2.0, 1.0};
     const double complex v[3] = {1.0, 0.5, 1.0};
     double complex out, err;
-    cli_extrapolate(3, d, v, 1, &out, &err);
+    assert_int_equal(cli_extrapolate(3, d, v, 1, &out, &err), CLI_OK);
     assert_close(creal(out), 5.0 / 6.0, TOL_FIT);
-    assert_close(creal(err), 0.5, TOL_FIT);
+    assert_close(creal(err), 5.0 / 3.0 + 2.0 * sqrt(7.0 / 18.0) + 1.0 / 3.0, 1e-12);
     assert_close_abs(cimag(err), 0.0, 0.0, 1e-300);
+    /* Repeated spacings are refused. */
+    const double dup[2] = {1.0, 1.0};
+    assert_int_equal(cli_extrapolate(2, dup, v, 1, &out, &err), CLI_USAGE);
 }
 
 static void test_refine_split_voxels(void **state)
@@ -88,7 +95,7 @@ static void test_refine_split_voxels(void **state)
     cli_refine r;
     assert_int_equal(cli_refine_build(&a, g, 3, &r), CLI_OK);
     assert_string_equal(r.how, "split voxels");
-    assert_ptr_equal(r.grid[0], g);
+    assert_int_equal(r.grid[0]->n_occ, g->n_occ); /* level 0 is a copy */
     double c0[3];
     dpz_grid_centroid(g, c0);
     for (size_t k = 1; k < 3; k++) {

@@ -956,6 +956,12 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     }
     grid_hash(c->grid, grid_hex);
     o.summary = summary_new(c, a->pos[0], file_hex, grid_hex, cli_src_format_name(fmt));
+    cJSON *run = o.summary ? cJSON_AddObjectToObject(o.summary, "run") : NULL;
+    if (run) {
+        /* How this session ran; not an input (results agree across these). */
+        cJSON_AddNumberToObject(run, "threads", c->setup.op.threads);
+        cJSON_AddNumberToObject(run, "mpi_ranks", size);
+    }
     char *fresh = o.summary ? cJSON_Print(o.summary) : NULL;
     if (!fresh) {
         cJSON_Delete(o.summary);

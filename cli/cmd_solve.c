@@ -15,11 +15,14 @@
  * percent is the usual working limit of point-dipole lattice models (common practice). */
 #define VALID_GOOD 0.05
 #define VALID_FAIR 0.20
-/* Reciprocity holds to solver precision (CONVENTIONS.md 7.6, verified to 1e-15 with exact
- * solves), so it is judged against the solver tolerance with a safety factor. */
+/* Reciprocity (a_ee = a_ee^T, a_mm = a_mm^T, a_em = -a_me^T, from the reaction theorem:
+ * Rumsey, Phys. Rev. 94, 1483 (1954)) holds for the exact coupled-dipole solution because
+ * the system matrix is complex symmetric, so it is judged against the solver tolerance
+ * with a safety factor. */
 #define RECIP_FACTOR 100.0
-/* The lossless identity of CONVENTIONS.md 7.7 truncated at n = 3 leaves ~1e-7 on the
- * lossless helix; 1e-3 flags a real energy-balance problem. */
+/* Energy balance of a lossless scatterer: T + T^H = -2 T^H T (unitarity of the scattering
+ * matrix; Mishchenko, Travis & Lacis 2002, ch. 5). Truncated at multipole order 3 it is
+ * ~1e-7 for particles of size parameter up to ~1; 1e-3 flags a real problem. */
 #define ENERGY_OK 1e-3
 
 /* Entries below this fraction of the largest one print as 0 in tables (the JSON keeps

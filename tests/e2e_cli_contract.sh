@@ -186,7 +186,7 @@ assert len(s["iterations"]) == 6 and len(s["residuals"]) == 6 and s["converged"]
 assert abs(d["k_per_m"] - 2 * math.pi / 200e-9) < 1e-12 * d["k_per_m"]
 ee = tensor(d["alpha"]["ee"]); em = tensor(d["alpha"]["em"]); me = tensor(d["alpha"]["me"])
 mx = max(abs(v) for r in ee for v in r)
-# Reciprocity a_ee = a_ee^T, a_em = -a_me^T (CONVENTIONS: reaction theorem form)
+# Reciprocity a_ee = a_ee^T, a_em = -a_me^T (reaction theorem, Rumsey, Phys. Rev. 94, 1483 (1954))
 for i in range(3):
     for j in range(3):
         assert abs(ee[i][j] - ee[j][i]) < 1e-5 * mx

@@ -196,7 +196,7 @@ static void test_args_materials(void **state)
 static void test_args_exit_codes(void **state)
 {
     (void)state;
-    /* DESIGN exit codes: 1 computation failed, 2 bad input. */
+    /* Exit codes of the program: 1 computation failed, 2 bad input or usage. */
     assert_int_equal(cli_exit_code(DPZ_OK), CLI_OK);
     assert_int_equal(cli_exit_code(DPZ_ENOCONV), CLI_FAILED);
     assert_int_equal(cli_exit_code(DPZ_ESTAGNATION), CLI_FAILED);

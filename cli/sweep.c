@@ -907,6 +907,8 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     c->setup.host_index = c->mat.host_index;
     if ((rc = cli_setup_options(a, &c->setup)) != CLI_OK)
         return rc;
+    /* The memory estimate (operator, solver vectors, the six warm-start solutions)
+     * against --max-memory or the memory available, before allocating any of it. */
     if ((rc = cli_limits_check(a, c->grid, &c->setup, CLI_WORK_SWEEP)) != CLI_OK)
         return rc;
     c->khat[0] = c->khat[1] = 0.0;
@@ -917,9 +919,7 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     if (inc && (rc = parse_incidence(inc, c->khat, c->e0)) != CLI_OK)
         return rc;
     c->n_vec = 3 * c->grid->n_occ;
-    /* The memory estimate (operator, solver vectors, the six warm-start solutions)
-     * against --max-memory or the memory available, before allocating any of it. */
-    return cli_limits_check(a, c->grid, &c->setup, CLI_WORK_SWEEP);
+    return CLI_OK;
 }
 
 static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)

@@ -426,7 +426,7 @@ static dpz_status load_alpha(const char *dir, dpz_pic_sweep *sw, dpz_err *err)
     alpha_rec *rec = NULL;
     size_t nrec = 0, cap = 0;
     dpz_status st = csv_open(&c, path, 0, NULL, err);
-    int cw, cb, cr, cc, cre, cim;
+    int cw = -1, cb = -1, cr = -1, cc = -1, cre = -1, cim = -1;
     if (st == DPZ_OK)
         st = csv_need(&c, "wavelength_m", &cw, err);
     if (st == DPZ_OK)

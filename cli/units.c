@@ -538,7 +538,7 @@ dpz_status dpz_units_wavelength_text(const char *opt, const char *name, const ch
         trim_copy(text, item, sizeof item);
         if (!item[0])
             continue;
-        double w;
+        double w = 0.0;
         dpz_err e1;
         if (dpz_units_length_pos(opt, item, &w, &e1) != DPZ_OK) {
             free(v);
@@ -644,7 +644,7 @@ dpz_status dpz_units_wavelengths(const char *opt, const char *text, size_t max_p
                                "%s: \"%s\": expected LO:HI:STEP with units, e.g. "
                                "400nm:800nm:10nm",
                                nz(opt), text);
-        double lo, hi, step;
+        double lo = 0.0, hi = 0.0, step = 0.0;
         dpz_status s;
         if ((s = dpz_units_length_pos(opt, parts[0], &lo, err)) != DPZ_OK ||
             (s = dpz_units_length_pos(opt, parts[1], &hi, err)) != DPZ_OK)

@@ -51,6 +51,12 @@ static int run_info(const cli_args *a)
     dpz_grid_centroid(g, centroid);
     occupied_box(g, lo, hi);
     double vol = dpz_grid_volume(g), aeq = dpz_grid_aeq(g);
+    /* A recorded shape has a volume formula (dpz_shape_volume; negative when none). */
+    double shape_volume = -1.0;
+    dpz_shape shape;
+    if (g->source_kind == DPZ_SOURCE_SHAPE &&
+        dpz_shape_parse_record(g->source, &shape, NULL) == DPZ_OK)
+        shape_volume = dpz_shape_volume(&shape);
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
         cJSON_AddStringToObject(o, "file", a->pos[0]);
@@ -82,6 +88,8 @@ static int run_info(const cli_args *a)
         cJSON_AddItemToObject(o, "source", src);
         if (mesh_volume >= 0)
             cJSON_AddNumberToObject(o, "mesh_volume_m3", mesh_volume);
+        if (shape_volume > 0)
+            cJSON_AddNumberToObject(o, "shape_volume_m3", shape_volume);
         rc = cli_json_emit(o);
     } else {
         printf("file        %s (%s)\n", a->pos[0], cli_src_format_name(fmt));
@@ -98,6 +106,9 @@ static int run_info(const cli_args *a)
         if (mesh_volume >= 0)
             printf(" (mesh %.6e m^3, %+.2f%%)", mesh_volume,
                    100.0 * (vol - mesh_volume) / mesh_volume);
+        if (shape_volume > 0)
+            printf(" (shape %.6e m^3, %+.2f%%)", shape_volume,
+                   100.0 * (vol - shape_volume) / shape_volume);
         printf("\na_eq        %.6e m (radius of the sphere of equal volume)\n", aeq);
         printf("centroid    %.6e %.6e %.6e m\n", centroid[0], centroid[1], centroid[2]);
         printf("extent      %.6e .. %.6e, %.6e .. %.6e, %.6e .. %.6e m (voxel centres)\n",

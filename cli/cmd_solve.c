@@ -781,6 +781,17 @@ static int run_expand(const cli_args *a)
         return rc;
     }
     int converged = s == DPZ_OK && ex->converged;
+    /* The largest size parameter sets the shortest wavelength: lambda0 = 2 pi n_h a_eq /
+     * x in the host, so |m| k d is largest there. */
+    double xmax = 0.0;
+    for (size_t i = 0; i < ex->n_points; i++)
+        if (ex->points[i] > xmax)
+            xmax = ex->points[i];
+    double lam_min =
+        2.0 * 3.14159265358979323846 * j.mat.host_index * dpz_grid_aeq(j.grid) / xmax;
+    double mkd = lattice_kd(j.grid, j.setup.eps_label, lam_min);
+    char v_lat[256];
+    lattice_verdict(mkd, v_lat, sizeof v_lat);
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
         cJSON_AddItemToObject(o, "C0", cli_json_tensor3(ex->C0));
@@ -791,6 +802,8 @@ static int run_expand(const cli_args *a)
         cJSON_AddItemToObject(o, "points", cli_json_doubles(ex->points, ex->n_points));
         cJSON_AddNumberToObject(o, "radiative_check", ex->radiative_check);
         cJSON_AddStringToObject(o, "c2_caution", C2_CAUTION);
+        cJSON_AddNumberToObject(o, "lattice_mkd_max", mkd);
+        cJSON_AddStringToObject(o, "lattice", v_lat);
         cli_json_grid_facts(o, j.grid);
         cJSON_AddNumberToObject(o, "host_index", j.mat.host_index);
         if (lam > 0)
@@ -822,6 +835,7 @@ static int run_expand(const cli_args *a)
                ex->radiative_check < 0.05 ? " (ok)"
                                           : "  WARNING: C3 departs from -(2i/9) I");
         printf("caution: %s\n", C2_CAUTION);
+        printf("lattice at the largest x: %s\n", v_lat);
         printf("solver: worst of all solves: %zu iterations, residual %.2e%s\n",
                ex->worst.iterations, ex->worst.residual,
                converged ? "" : "  NOT CONVERGED");

@@ -66,6 +66,7 @@ assert abs(d["a_eq_m"] - (3 * d["volume_m3"] / (4 * math.pi)) ** (1 / 3)) <= 1e-
 # voxel count within 10% of the sphere volume 4 pi r^3/3 (staircase error at 12 per diameter)
 assert abs(n - 4 * math.pi * 6**3 / 3) < 0.1 * 4 * math.pi * 6**3 / 3, n
 assert d["source"]["kind"] == "shape"
+assert abs(d["shape_volume_m3"] - 4 * math.pi * 6e-9**3 / 3) < 1e-12 * d["shape_volume_m3"]
 ' || bad "info --json"
 run "$bin" info "$tmp/s.vtk"
 [ "$(rc)" = 0 ] && grep -q 'a_eq' "$tmp/out" && ok "info table" || bad "info table"
@@ -250,6 +251,9 @@ assert abs(C0[0][0] - 4.25 / 3.75) < 0.03 * 4.25 / 3.75, C0[0][0]
 # Sphere, origin at its centre: inverting the small-x series of the Mie coefficient a_1
 # (Bohren & Huffman 1983, sect. 5.2; series quoted from memory) gives
 # C2 = -(eps-2)/(5(eps-1)) = -0.04 at eps 2.25; 12 dipoles per diameter land within ~5%.
+# |m| k d at the largest x: k = x / a_eq, so sqrt(2.25) 0.3 d / a_eq
+mkd = 1.5 * 0.3 * d["spacing_m"] / d["a_eq_m"]
+assert abs(d["lattice_mkd_max"] - mkd) < 1e-9 * mkd, d["lattice_mkd_max"]
 C2 = tensor(d["C2"])
 assert abs(C2[0][0] - (-0.04)) < 0.15 * 0.04, C2[0][0]
 ' || bad "expand"

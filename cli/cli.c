@@ -18,7 +18,7 @@
 #define DPZ_VERSION "unknown"
 #endif
 
-/* Commands added by other files of the program (sweep, merge) register here too. */
+/* Subcommands built on the shared argument parser (args.c). */
 static const cli_cmd *const commands[] = {
     &cli_cmd_shape,  &cli_cmd_voxelize, &cli_cmd_info,
     &cli_cmd_static, &cli_cmd_tensor,   &cli_cmd_expand,
@@ -278,6 +278,12 @@ int dpz_cli_main(int argc, char **argv)
                 if (strcmp(argv[2], commands[i]->name) == 0) {
                     cli_print_help(commands[i], stdout);
                     return CLI_OK;
+                }
+            for (size_t i = 0; i < N_RAW; i++)
+                if (strcmp(argv[2], raw_commands[i].name) == 0) {
+                    char help_opt[] = "--help";
+                    char *sub[3] = {argv[2], help_opt, NULL};
+                    return raw_commands[i].run(2, sub);
                 }
             return cli_fail("unknown command \"%s\" (see dipolize --help)", argv[2]);
         }

@@ -5,14 +5,14 @@
 # sanitizer report, leaving the reproducer in the work folder it names.
 #
 # Usage: fuzz/run.sh [SECONDS_PER_HARNESS] [HARNESS...]
-#   SECONDS_PER_HARNESS  default 20 (11 harnesses: under 4 minutes in all)
+#   SECONDS_PER_HARNESS  default 15 (13 harnesses: about 3.5 minutes in all)
 #   HARNESS              names such as vtk npy stl (default: every fuzz/fuzz_*.c)
 # Environment: DPZ_FUZZ_BUILD (build folder, default build-fuzz), JOBS (default 2).
 # Reproduce a reported input:  build-fuzz/fuzz/fuzz_vtk CRASH_FILE
 # New interesting inputs are kept in the work folder, never added to the committed corpus.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-secs=${1:-20}
+secs=${1:-15}
 shift || true
 build=${DPZ_FUZZ_BUILD:-build-fuzz}
 jobs=${JOBS:-2}

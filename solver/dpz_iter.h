@@ -59,7 +59,9 @@ typedef struct dpz_iter dpz_iter;
 dpz_status dpz_iter_create(dpz_iter **out, size_t n, const dpz_solve_opts *opts,
                            dpz_err *err);
 void dpz_iter_destroy(dpz_iter *it);
-/* Starts a solve of A x = b from x0 (NULL: zero). Borrows A and b until the next set.
+/* Starts a solve of A x = b from x0 (NULL: zero), rescaled by the factor g minimizing
+ * ||b - g A x0|| (so a guess never starts worse than a zero guess; costs no extra
+ * operator application). Borrows A (and its diagonal) and b until the next set.
  * Returns DPZ_OK once set up (the next dpz_iter_step returns DPZ_OK at once when x0
  * already meets the tolerance or b = 0, which gives x = 0); DPZ_EINVAL for an operator of
  * another order, a non-finite b or x0, or a zero diagonal entry with Jacobi on. A set

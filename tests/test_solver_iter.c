@@ -200,6 +200,48 @@ static void test_iter_warm_start(void **state)
     free_problem(&P);
 }
 
+/* A guess that is the direct solution times 2.385 - 0.7i (the right shape, the wrong
+ * amplitude, as a neighbouring wavelength's solution near a resonance can be) is rescaled
+ * by the minimal-residual factor (A x0)^H b / ||A x0||^2 (Saad 2003, sec. 5.3): the
+ * solvers then stop at once or after one iteration, like the unscaled direct solution
+ * above; without the rescaling the initial relative residual would be |1 - 2.385 + 0.7i|
+ * = 1.55. A guess orthogonal in the residual sense is no worse than a zero guess. */
+static void test_iter_warm_start_rescaled(void **state)
+{
+    (void)state;
+    problem P = make_problem(2.5, 2.25, DPZ_DIPOLE_CMRR);
+    double complex *x = malloc(P.n * sizeof *x);
+    dpz_linop L = dpz_fftop_linop(P.op);
+    dpz_solve_opts o = dpz_solve_opts_default();
+    o.kind = DPZ_SOLVER_COCG;
+    o.tol = TOL;
+    for (size_t i = 0; i < P.n; i++)
+        x[i] = (2.385 - 0.7 * I) * P.xd[i];
+    dpz_solve_info info;
+    assert_int_equal(dpz_solve(&L, P.b, x, &o, &info, NULL), DPZ_OK);
+    assert_true(info.iterations <= 1);
+    assert_true(rel_diff(x, P.xd, P.n) <= 10.0 * P.kappa1 * TOL);
+    dpz_solve_info_free(&info);
+    /* Cold start for comparison: the same system needs several iterations from zero. */
+    memset(x, 0, P.n * sizeof *x);
+    assert_int_equal(dpz_solve(&L, P.b, x, &o, &info, NULL), DPZ_OK);
+    size_t cold = info.iterations;
+    assert_true(cold > 2);
+    dpz_solve_info_free(&info);
+    /* The iteration object's residual after set-up never exceeds the zero guess's (1):
+     * a guess of unrelated random entries. */
+    uint64_t seed = 2385;
+    for (size_t i = 0; i < P.n; i++)
+        x[i] = CMPLX(dpz_test_rand(&seed), dpz_test_rand(&seed));
+    dpz_iter *it = NULL;
+    assert_int_equal(dpz_iter_create(&it, P.n, &o, NULL), DPZ_OK);
+    assert_int_equal(dpz_iter_set(it, &L, P.b, x, NULL), DPZ_OK);
+    assert_true(dpz_iter_residual(it) <= 1.0);
+    dpz_iter_destroy(it);
+    free(x);
+    free_problem(&P);
+}
+
 /* Two iterations cannot solve the system: DPZ_ENOCONV, with the iterate, the count and
  * the history still readable. */
 static void test_iter_max_iter_reports_noconv(void **state)
@@ -577,6 +619,7 @@ int main(void)
         cmocka_unit_test(test_iter_high_index_sphere),
         cmocka_unit_test(test_iter_metal_sphere),
         cmocka_unit_test(test_iter_warm_start),
+        cmocka_unit_test(test_iter_warm_start_rescaled),
         cmocka_unit_test(test_iter_max_iter_reports_noconv),
         cmocka_unit_test(test_iter_zero_rhs),
         cmocka_unit_test(test_iter_breakdown_detected),

@@ -199,6 +199,12 @@ int cli_setup_options(const cli_args *a, dpz_setup *setup);
 int cli_plan_options(const cli_args *a, dpz_setup *setup);
 
 /* ---- JSON and output */
+/* A JSON number that reads back to exactly `v`: the shortest of %.15g, %.16g and %.17g
+ * that round-trips (cJSON 1.7's own printing accepts a 15-digit form that differs in the
+ * last bits, e.g. 0.1 + 0.2 as "0.3"), inserted as raw text; null for NaN and infinities,
+ * which JSON cannot hold. Use it (or cli_json_add_number) for every double written. */
+cJSON *cli_json_number(double v);
+cJSON *cli_json_add_number(cJSON *object, const char *name, double v);
 cJSON *cli_json_complex(double complex z);
 /* A 3x3 tensor from 9 entries, row-major. Call it through cli_json_tensor3(t) with a
  * `double complex t[3][3]` (const or not: the macro takes &t[0][0], which converts to

@@ -63,20 +63,20 @@ static int run_info(const cli_args *a)
         cJSON_AddStringToObject(o, "format", cli_src_format_name(fmt));
         double dims[3] = {(double)g->nx, (double)g->ny, (double)g->nz};
         cJSON_AddItemToObject(o, "dims", cli_json_doubles(dims, 3));
-        cJSON_AddNumberToObject(o, "spacing_m", g->d);
-        cJSON_AddNumberToObject(o, "voxels", (double)g->n_occ);
+        cli_json_add_number(o, "spacing_m", g->d);
+        cli_json_add_number(o, "voxels", (double)g->n_occ);
         cJSON *labels = cJSON_CreateArray();
         for (int l = 1; l < 256; l++) {
             if (!counts[l])
                 continue;
             cJSON *e = cJSON_CreateObject();
-            cJSON_AddNumberToObject(e, "label", l);
-            cJSON_AddNumberToObject(e, "voxels", (double)counts[l]);
+            cli_json_add_number(e, "label", l);
+            cli_json_add_number(e, "voxels", (double)counts[l]);
             cJSON_AddItemToArray(labels, e);
         }
         cJSON_AddItemToObject(o, "labels", labels);
-        cJSON_AddNumberToObject(o, "volume_m3", vol);
-        cJSON_AddNumberToObject(o, "a_eq_m", aeq);
+        cli_json_add_number(o, "volume_m3", vol);
+        cli_json_add_number(o, "a_eq_m", aeq);
         cJSON_AddItemToObject(o, "origin_m", cli_json_vec3(g->origin));
         cJSON_AddItemToObject(o, "centroid_m", cli_json_vec3(centroid));
         cJSON_AddItemToObject(o, "occupied_min_m", cli_json_vec3(lo));
@@ -87,9 +87,9 @@ static int run_info(const cli_args *a)
         cJSON_AddStringToObject(src, "record", g->source);
         cJSON_AddItemToObject(o, "source", src);
         if (mesh_volume >= 0)
-            cJSON_AddNumberToObject(o, "mesh_volume_m3", mesh_volume);
+            cli_json_add_number(o, "mesh_volume_m3", mesh_volume);
         if (shape_volume > 0)
-            cJSON_AddNumberToObject(o, "shape_volume_m3", shape_volume);
+            cli_json_add_number(o, "shape_volume_m3", shape_volume);
         rc = cli_json_emit(o);
     } else {
         printf("file        %s (%s)\n", a->pos[0], cli_src_format_name(fmt));

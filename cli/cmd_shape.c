@@ -256,7 +256,7 @@ static int run_shape(const cli_args *a)
             cJSON_AddItemToObject(o, "dims", cli_json_doubles(dd, 3));
             cli_json_grid_facts(o, g);
             if (vs > 0)
-                cJSON_AddNumberToObject(o, "shape_volume_m3", vs);
+                cli_json_add_number(o, "shape_volume_m3", vs);
             rc = cli_json_emit(o);
         } else {
             printf("wrote %s: %zu x %zu x %zu grid, %zu voxels of %g m\n", out, g->nx,

@@ -141,8 +141,8 @@ static cJSON *rhs_json(const dpz_rhs_report *r, size_t n, int *all_ok)
           *st = cJSON_CreateArray();
     *all_ok = 1;
     for (size_t i = 0; i < n; i++) {
-        cJSON_AddItemToArray(it, cJSON_CreateNumber((double)r[i].iterations));
-        cJSON_AddItemToArray(res, cJSON_CreateNumber(r[i].residual));
+        cJSON_AddItemToArray(it, cli_json_number((double)r[i].iterations));
+        cJSON_AddItemToArray(res, cli_json_number(r[i].residual));
         cJSON_AddItemToArray(st, cJSON_CreateString(dpz_status_name(r[i].status)));
         if (r[i].status != DPZ_OK)
             *all_ok = 0;
@@ -189,12 +189,12 @@ static cJSON *refine_json(const cli_refine *r)
         vol[k] = dpz_grid_volume(r->grid[k]);
         vox[k] = (double)r->grid[k]->n_occ;
     }
-    cJSON_AddNumberToObject(o, "levels", (double)r->n);
+    cli_json_add_number(o, "levels", (double)r->n);
     cJSON_AddStringToObject(o, "how", r->how);
     cJSON_AddItemToObject(o, "spacings_m", cli_json_doubles(r->d, r->n));
     cJSON_AddItemToObject(o, "voxels", cli_json_doubles(vox, r->n));
     cJSON_AddItemToObject(o, "volumes_m3", cli_json_doubles(vol, r->n));
-    cJSON_AddNumberToObject(o, "true_volume_m3", r->v_true);
+    cli_json_add_number(o, "true_volume_m3", r->v_true);
     cJSON_AddStringToObject(o, "true_volume_from", r->v_source);
     /* Split voxels describe the same staircase body at every level, so the limit is that
      * body's continuum response, not the response of a smooth shape it approximates. */
@@ -327,9 +327,9 @@ static int run_static(const cli_args *a)
                 n3[r][c] = chi[r][c] / V;
         cJSON_AddItemToObject(o, "chi_over_volume", cli_json_tensor3(n3));
         cli_json_grid_facts(o, j.grid);
-        cJSON_AddNumberToObject(o, "host_index", j.mat.host_index);
+        cli_json_add_number(o, "host_index", j.mat.host_index);
         if (lam > 0)
-            cJSON_AddNumberToObject(o, "wavelength_m", lam);
+            cli_json_add_number(o, "wavelength_m", lam);
         cJSON_AddItemToObject(o, "materials", cli_materials_json(&j.mat, j.grid));
         if (rj) {
             cJSON *per = cJSON_CreateArray();
@@ -343,7 +343,7 @@ static int run_static(const cli_args *a)
         cJSON_AddBoolToObject(sol, "converged", s == DPZ_OK);
         cJSON *opts = cli_json_setup(&j.setup);
         cJSON_AddItemToObject(sol, "options", opts);
-        cJSON_AddNumberToObject(sol, "seconds", secs);
+        cli_json_add_number(sol, "seconds", secs);
         cJSON_AddItemToObject(o, "solver", sol);
         rc = cli_json_emit(o);
     } else {
@@ -576,17 +576,17 @@ static int run_tensor(const cli_args *a)
     int converged = s == DPZ_OK && t->converged;
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
-        cJSON_AddNumberToObject(o, "wavelength_m", lam);
-        cJSON_AddNumberToObject(o, "k_per_m", t->k_per_m);
-        cJSON_AddNumberToObject(o, "host_index", j.mat.host_index);
+        cli_json_add_number(o, "wavelength_m", lam);
+        cli_json_add_number(o, "k_per_m", t->k_per_m);
+        cli_json_add_number(o, "host_index", j.mat.host_index);
         cJSON_AddItemToObject(o, "origin_m", cli_json_vec3(t->origin_m));
         cli_json_grid_facts(o, j.grid);
-        cJSON_AddNumberToObject(o, "size_parameter", t->k_per_m * dpz_grid_aeq(j.grid));
+        cli_json_add_number(o, "size_parameter", t->k_per_m * dpz_grid_aeq(j.grid));
         cJSON *eps = cJSON_CreateArray();
         for (int l = 1; l < 256; l++)
             if (j.mat.mat[l]) {
                 cJSON *m = cJSON_CreateObject();
-                cJSON_AddNumberToObject(m, "label", l);
+                cli_json_add_number(m, "label", l);
                 cJSON_AddStringToObject(m, "spec", j.mat.describe[l]);
                 cJSON_AddItemToObject(m, "eps", cli_json_complex(j.setup.eps_label[l]));
                 cJSON_AddItemToArray(eps, m);
@@ -627,9 +627,9 @@ static int run_tensor(const cli_args *a)
         }
         cJSON_AddItemToObject(o, "t_block", tb);
         cJSON *dg = cJSON_CreateObject();
-        cJSON_AddNumberToObject(dg, "reciprocity", t->reciprocity);
-        cJSON_AddNumberToObject(dg, "energy_balance", t->energy_balance);
-        cJSON_AddNumberToObject(dg, "dipole_validity", t->dipole_validity);
+        cli_json_add_number(dg, "reciprocity", t->reciprocity);
+        cli_json_add_number(dg, "energy_balance", t->energy_balance);
+        cli_json_add_number(dg, "dipole_validity", t->dipole_validity);
         cJSON_AddItemToObject(dg, "absorption_eig",
                               cli_json_doubles(t->absorption_eig, 6));
         cJSON_AddItemToObject(dg, "fluct_eig_m3", cli_json_doubles(t->fluct_eig, 6));
@@ -640,20 +640,20 @@ static int run_tensor(const cli_args *a)
         cJSON_AddStringToObject(vd, "energy", v3);
         cJSON_AddStringToObject(vd, "lattice", v4);
         cJSON_AddItemToObject(dg, "verdicts", vd);
-        cJSON_AddNumberToObject(dg, "lattice_mkd", mkd);
+        cli_json_add_number(dg, "lattice_mkd", mkd);
         cJSON_AddItemToObject(o, "diagnostics", dg);
         if (want_x && s == DPZ_OK) {
             cJSON *x = cJSON_CreateObject();
             double kh[3] = {0, 0, 1}, pol[3] = {1, 0, 0};
             cJSON_AddItemToObject(x, "direction", cli_json_vec3(kh));
             cJSON_AddItemToObject(x, "polarization", cli_json_vec3(pol));
-            cJSON_AddNumberToObject(x, "ext_m2", xs.ext);
-            cJSON_AddNumberToObject(x, "abs_m2", xs.abs);
-            cJSON_AddNumberToObject(x, "sca_m2", xs.sca);
-            cJSON_AddNumberToObject(x, "ext_dipole_m2", xs.ext_dip);
-            cJSON_AddNumberToObject(x, "abs_dipole_m2", xs.abs_dip);
-            cJSON_AddNumberToObject(x, "sca_dipole_m2", xs.sca_dip);
-            cJSON_AddNumberToObject(x, "rel_diff", xs.rel_diff);
+            cli_json_add_number(x, "ext_m2", xs.ext);
+            cli_json_add_number(x, "abs_m2", xs.abs);
+            cli_json_add_number(x, "sca_m2", xs.sca);
+            cli_json_add_number(x, "ext_dipole_m2", xs.ext_dip);
+            cli_json_add_number(x, "abs_dipole_m2", xs.abs_dip);
+            cli_json_add_number(x, "sca_dipole_m2", xs.sca_dip);
+            cli_json_add_number(x, "rel_diff", xs.rel_diff);
             cJSON_AddBoolToObject(x, "converged", sx == DPZ_OK);
             cJSON_AddItemToObject(o, "cross_sections", x);
         }
@@ -661,7 +661,7 @@ static int run_tensor(const cli_args *a)
         cJSON *sol = rhs_json(t->rhs, 6, &ok);
         cJSON_AddBoolToObject(sol, "converged", converged);
         cJSON_AddItemToObject(sol, "options", cli_json_setup(&j.setup));
-        cJSON_AddNumberToObject(sol, "seconds", secs);
+        cli_json_add_number(sol, "seconds", secs);
         cJSON_AddItemToObject(o, "solver", sol);
         rc = cli_json_emit(o);
     } else {
@@ -798,23 +798,23 @@ static int run_expand(const cli_args *a)
         cJSON_AddItemToObject(o, "C2", cli_json_tensor3(ex->C2));
         cJSON_AddItemToObject(o, "C3", cli_json_tensor3(ex->C3));
         cJSON_AddItemToObject(o, "C4", cli_json_tensor3(ex->C4));
-        cJSON_AddNumberToObject(o, "fit_residual", ex->fit_residual);
+        cli_json_add_number(o, "fit_residual", ex->fit_residual);
         cJSON_AddItemToObject(o, "points", cli_json_doubles(ex->points, ex->n_points));
-        cJSON_AddNumberToObject(o, "radiative_check", ex->radiative_check);
+        cli_json_add_number(o, "radiative_check", ex->radiative_check);
         cJSON_AddStringToObject(o, "c2_caution", C2_CAUTION);
-        cJSON_AddNumberToObject(o, "lattice_mkd_max", mkd);
+        cli_json_add_number(o, "lattice_mkd_max", mkd);
         cJSON_AddStringToObject(o, "lattice", v_lat);
         cli_json_grid_facts(o, j.grid);
-        cJSON_AddNumberToObject(o, "host_index", j.mat.host_index);
+        cli_json_add_number(o, "host_index", j.mat.host_index);
         if (lam > 0)
-            cJSON_AddNumberToObject(o, "wavelength_m", lam);
+            cli_json_add_number(o, "wavelength_m", lam);
         cJSON_AddItemToObject(o, "materials", cli_materials_json(&j.mat, j.grid));
         cJSON *sol = cJSON_CreateObject();
-        cJSON_AddNumberToObject(sol, "worst_iterations", (double)ex->worst.iterations);
-        cJSON_AddNumberToObject(sol, "worst_residual", ex->worst.residual);
+        cli_json_add_number(sol, "worst_iterations", (double)ex->worst.iterations);
+        cli_json_add_number(sol, "worst_residual", ex->worst.residual);
         cJSON_AddBoolToObject(sol, "converged", converged);
         cJSON_AddItemToObject(sol, "options", cli_json_setup(&j.setup));
-        cJSON_AddNumberToObject(sol, "seconds", secs);
+        cli_json_add_number(sol, "seconds", secs);
         cJSON_AddItemToObject(o, "solver", sol);
         rc = cli_json_emit(o);
     } else {

@@ -41,7 +41,7 @@ static int run_voxelize(const cli_args *a)
         double dims[3] = {(double)g->nx, (double)g->ny, (double)g->nz};
         cJSON_AddItemToObject(o, "dims", cli_json_doubles(dims, 3));
         cli_json_grid_facts(o, g);
-        cJSON_AddNumberToObject(o, "mesh_volume_m3", mesh_volume);
+        cli_json_add_number(o, "mesh_volume_m3", mesh_volume);
         rc = cli_json_emit(o);
     } else {
         printf("wrote %s: %zu x %zu x %zu grid, %zu voxels of %g m\n", out, g->nx, g->ny,

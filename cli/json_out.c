@@ -10,13 +10,36 @@
 #include <string.h>
 #include <unistd.h>
 
+cJSON *cli_json_number(double v)
+{
+    if (!isfinite(v))
+        return cJSON_CreateNull();
+    char buf[40];
+    for (int digits = 15; digits <= 17; digits++) {
+        snprintf(buf, sizeof buf, "%.*g", digits, v);
+        if (strtod(buf, NULL) == v)
+            break;
+    }
+    return cJSON_CreateRaw(buf);
+}
+
+cJSON *cli_json_add_number(cJSON *object, const char *name, double v)
+{
+    cJSON *n = cli_json_number(v);
+    if (n && !cJSON_AddItemToObject(object, name, n)) {
+        cJSON_Delete(n);
+        return NULL;
+    }
+    return n;
+}
+
 cJSON *cli_json_complex(double complex z)
 {
     cJSON *p = cJSON_CreateArray();
     if (!p)
         return NULL;
-    cJSON_AddItemToArray(p, cJSON_CreateNumber(creal(z)));
-    cJSON_AddItemToArray(p, cJSON_CreateNumber(cimag(z)));
+    cJSON_AddItemToArray(p, cli_json_number(creal(z)));
+    cJSON_AddItemToArray(p, cli_json_number(cimag(z)));
     return p;
 }
 
@@ -43,14 +66,14 @@ cJSON *cli_json_block_flat(const double complex *A, int r0, int c0)
 
 cJSON *cli_json_vec3(const double v[3])
 {
-    return cJSON_CreateDoubleArray(v, 3);
+    return cli_json_doubles(v, 3);
 }
 
 cJSON *cli_json_doubles(const double *v, size_t n)
 {
     cJSON *arr = cJSON_CreateArray();
     for (size_t i = 0; arr && i < n; i++)
-        cJSON_AddItemToArray(arr, cJSON_CreateNumber(v[i]));
+        cJSON_AddItemToArray(arr, cli_json_number(v[i]));
     return arr;
 }
 
@@ -60,19 +83,19 @@ cJSON *cli_json_setup(const dpz_setup *s)
     if (!o)
         return NULL;
     cJSON_AddStringToObject(o, "kind", dpz_solver_name(s->solve.kind));
-    cJSON_AddNumberToObject(o, "tol", s->solve.tol);
-    cJSON_AddNumberToObject(o, "max_iter", (double)s->solve.max_iter);
+    cli_json_add_number(o, "tol", s->solve.tol);
+    cli_json_add_number(o, "max_iter", (double)s->solve.max_iter);
     cJSON_AddStringToObject(o, "dipole_model", dpz_dipole_name(s->model));
-    cJSON_AddNumberToObject(o, "threads", s->op.threads);
+    cli_json_add_number(o, "threads", s->op.threads);
     return o;
 }
 
 void cli_json_grid_facts(cJSON *o, const dpz_grid *g)
 {
-    cJSON_AddNumberToObject(o, "voxels", (double)g->n_occ);
-    cJSON_AddNumberToObject(o, "spacing_m", g->d);
-    cJSON_AddNumberToObject(o, "volume_m3", dpz_grid_volume(g));
-    cJSON_AddNumberToObject(o, "a_eq_m", dpz_grid_aeq(g));
+    cli_json_add_number(o, "voxels", (double)g->n_occ);
+    cli_json_add_number(o, "spacing_m", g->d);
+    cli_json_add_number(o, "volume_m3", dpz_grid_volume(g));
+    cli_json_add_number(o, "a_eq_m", dpz_grid_aeq(g));
 }
 
 int cli_json_emit(cJSON *o)

@@ -171,7 +171,7 @@ cJSON *cli_materials_json(const cli_materials *m, const dpz_grid *grid)
         if (!m->mat[l])
             continue;
         cJSON *o = cJSON_CreateObject();
-        cJSON_AddNumberToObject(o, "label", l);
+        cli_json_add_number(o, "label", l);
         cJSON_AddStringToObject(o, "spec", m->describe[l]);
         cJSON_AddItemToArray(arr, o);
     }

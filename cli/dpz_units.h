@@ -81,9 +81,11 @@ dpz_status dpz_units_size_params(const char *opt, const char *text, double *out,
 
 /* A list of vacuum wavelengths, metres, in one of three forms:
  *   LO:HI:STEP   lengths with units, 0 < LO <= HI, STEP > 0; points LO + i STEP for
- *                i = 0, 1, ... while <= HI; HI itself is included when it falls on the
- * grid within a relative rounding of 1e-9 of STEP. L1,L2,...    an explicit comma list of
- * positive lengths.
+ *                i = 0, 1, ... while <= HI, each rounded to 15 significant digits so
+ *                that it is the double nearest its decimal value (1.3e-06, not
+ *                1.2999999999999998e-06); HI itself is included when it falls on the
+ *                grid within 1e-9 of STEP.
+ *   L1,L2,...    an explicit comma list of positive lengths.
  *   @FILE        one length with unit per line; blank lines and '#' comments skipped.
  * At most `max_points` (0: DPZ_UNITS_MAX_POINTS) values; duplicates are refused. On
  * success *out is a malloc'd array of *n values (free with free()). */

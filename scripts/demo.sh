@@ -85,7 +85,7 @@ PY
 echo
 echo "== wrote (in $(($(date +%s) - t0)) s):"
 find "$out" -type f | sort | while read -r f; do
-    printf '   %-36s %8d bytes\n' "$f" "$(wc -c <"$f")"
+    printf '   %-44s %8d bytes\n' "$f" "$(wc -c <"$f")"
 done
 echo "   srr.vtk opens in any VTK viewer; the JSON and CSV files hold every number in SI"
 echo "   units; $out/sweep/report.html and $out/sweep/plots/*.svg open in a browser."

@@ -57,7 +57,11 @@ int main(int argc, char **argv)
     dpz_grid *g = NULL;
     if (dpz_shape_voxelize(&g, &s, d, 0, 1, 0, &e) != DPZ_OK)
         die("voxelize", &e);
-    dpz_drude_params dp = {9.5, 8.9, 0.07, 0, {{0}}};
+    dpz_drude_params dp;
+    memset(&dp, 0, sizeof dp);
+    dp.eps_inf = 9.5;
+    dp.plasma_ev = 8.9;
+    dp.damping_ev = 0.07;
     dpz_material *metal = NULL;
     if (dpz_material_create_drude(&metal, &dp, &e) != DPZ_OK)
         die("material", &e);

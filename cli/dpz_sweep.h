@@ -42,6 +42,8 @@ typedef struct dpz_sweep_result {
     uint64_t position; /* index in the full wavelength list */
     double lambda0_m;  /* vacuum wavelength, m */
     int converged;     /* all seven solves (six tensor RHS, one plane wave) converged */
+    int status;        /* DPZ_OK, or the first failure among the solves
+                          (DPZ_ENOCONV, DPZ_EBREAKDOWN, DPZ_ESTAGNATION) */
     int have_tensor;   /* A and the diagnostics hold values (tensor solves converged) */
     int have_xsec;     /* ext, abs, sca hold values (plane-wave solve converged) */
     double complex A[6][6];           /* 6x6 polarizability, m^3 (dpz_extract.h) */

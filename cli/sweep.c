@@ -707,6 +707,10 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
     if (st != DPZ_OK && !is_noconv(st))
         return st;
     r->have_tensor = st == DPZ_OK && T->converged;
+    for (int i = 0; i < 6 && r->status == DPZ_OK; i++)
+        r->status = T->rhs[i].status;
+    if (r->status == DPZ_OK && !r->have_tensor)
+        r->status = st != DPZ_OK ? st : DPZ_ENOCONV;
     for (int i = 0; i < 6; i++) {
         if (T->rhs[i].iterations > r->iterations)
             r->iterations = T->rhs[i].iterations;
@@ -726,6 +730,8 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
         if (st != DPZ_OK && !is_noconv(st))
             return st;
         r->have_xsec = st == DPZ_OK;
+        if (r->status == DPZ_OK && !r->have_xsec)
+            r->status = xs.rhs.status != DPZ_OK ? xs.rhs.status : st;
         if (xs.rhs.iterations > r->iterations)
             r->iterations = xs.rhs.iterations;
         if (xs.rhs.residual > r->residual || isnan(xs.rhs.residual))
@@ -836,6 +842,7 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
     cJSON_AddNumberToObject(e, "wavelength_m", r->lambda0_m);
     cJSON_AddNumberToObject(e, "position", (double)r->position);
     cJSON_AddBoolToObject(e, "converged", r->converged);
+    cJSON_AddStringToObject(e, "status", dpz_status_name((dpz_status)r->status));
     cJSON_AddNumberToObject(e, "iterations", (double)r->iterations);
     if (isfinite(r->residual))
         cJSON_AddNumberToObject(e, "residual", r->residual);

@@ -5,6 +5,7 @@
 
 #include <math.h>
 #include <string.h>
+#include <strings.h>
 
 #include "dpz_shape.h"
 #include "dpz_voxio.h"
@@ -218,6 +219,10 @@ static int run_shape(const cli_args *a)
     const char *out = cli_get(a, "-o");
     if (!out)
         return cli_fail("shape: -o FILE.vtk is required");
+    size_t olen = strlen(out);
+    if (olen < 5 || strcasecmp(out + olen - 4, ".vtk") != 0)
+        return cli_fail(
+            "shape: -o %s: the output is a VTK file; give it the .vtk extension", out);
     size_t sub = 4, max_cells = 0;
     int given;
     if ((rc = cli_opt_count(a, "--subsamples", &sub, &given)) != CLI_OK)

@@ -4,6 +4,7 @@
 #include "cli_int.h"
 
 #include <string.h>
+#include <strings.h>
 
 #include "dpz_voxio.h"
 
@@ -12,6 +13,10 @@ static int run_voxelize(const cli_args *a)
     const char *out = cli_get(a, "-o");
     if (!out)
         return cli_fail("voxelize: -o FILE.vtk is required");
+    size_t olen = strlen(out);
+    if (olen < 5 || strcasecmp(out + olen - 4, ".vtk") != 0)
+        return cli_fail(
+            "voxelize: -o %s: the output is a VTK file; give it the .vtk extension", out);
     if (!cli_get(a, "--spacing"))
         return cli_fail("voxelize: --spacing LEN is required (e.g. --spacing 2nm)");
     if (!cli_get(a, "--stl-unit"))
@@ -19,9 +24,8 @@ static int run_voxelize(const cli_args *a)
             "voxelize: --stl-unit UNIT is required (the length unit of the STL "
             "coordinates: m, cm, mm, um, nm, pm or A)");
     size_t n = strlen(a->pos[0]);
-    if (n < 4 || strcmp(a->pos[0] + n - 4, ".stl") != 0)
-        if (n < 4 || strcmp(a->pos[0] + n - 4, ".STL") != 0)
-            return cli_fail("voxelize: %s: expected an STL mesh (.stl)", a->pos[0]);
+    if (n < 5 || strcasecmp(a->pos[0] + n - 4, ".stl") != 0)
+        return cli_fail("voxelize: %s: expected an STL mesh (.stl)", a->pos[0]);
     dpz_grid *g = NULL;
     double mesh_volume = -1.0;
     int rc = cli_load_geometry(a, a->pos[0], &g, NULL, &mesh_volume);

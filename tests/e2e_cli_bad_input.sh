@@ -18,6 +18,7 @@ fi
 "$bin" shape core-shell --radius 3nm --shell 1nm --spacing 1nm -o "$tmp/cs.vtk" >/dev/null 2>&1
 printf 'not a voxel file\n' >"$tmp/junk.vtk"
 printf 'i,j,k,label\n0,0,0,1\n1,0,0,1\n' >"$tmp/v.csv"
+printf 'solid open\nfacet normal 0 0 1\nouter loop\nvertex 0 0 0\nvertex 1 0 0\nvertex 0 1 0\nendloop\nendfacet\nendsolid open\n' >"$tmp/m.stl"
 printf '# vtk DataFile Version 3.0\ndipolize voxels v1\nASCII\nDATASET STRUCTURED_POINTS\nDIMENSIONS 2 1 1\nSPACING 1e-9 1e-9 1e-9\nORIGIN 0 0 0\nPOINT_DATA 2\nSCALARS labels unsigned_char 1\nLOOKUP_TABLE default\n1 1\n' >"$tmp/v.vtk"
 printf '# n,k table\nwavelength_nm,n,k\n400,1.5,0\n500,1.5,0\n' >"$tmp/glass.csv"
 
@@ -75,6 +76,11 @@ check 2 "does not apply" "$o" -- shape sphere --radius 4nm --gap 1nm --spacing 1
 check 2 "needs --gap" "$o" -- shape split-ring --outer-radius 8nm --inner-radius 5nm --thickness 2nm --spacing 1nm -o "$o"
 check 2 "inner" "$o" -- shape ring --outer-radius 4nm --inner-radius 5nm --thickness 2nm --spacing 1nm -o "$o"
 check 2 "-o FILE.vtk is required" - -- shape sphere --radius 4nm --spacing 1nm
+check 2 ".vtk extension" "$tmp/out.npy" -- shape sphere --radius 4nm --spacing 1nm -o "$tmp/out.npy"
+check 2 "expected an STL mesh" "$o" -- voxelize "$tmp/s.vtk" --spacing 1nm --stl-unit nm -o "$o"
+check 2 "--stl-unit UNIT is required" "$o" -- voxelize "$tmp/m.stl" --spacing 1nm -o "$o"
+check 2 "not a length unit" "$o" -- voxelize "$tmp/m.stl" --spacing 1nm --stl-unit inch -o "$o"
+check 2 "m.stl" "$o" -- voxelize "$tmp/m.stl" --spacing 1nm --stl-unit nm -o "$o"
 check 2 "--spacing" "$o" -- shape sphere --radius 4nm -o "$o"
 check 2 "1 to 255" "$o" -- shape sphere --radius 4nm --label 0 --spacing 1nm -o "$o"
 check 2 "--max-voxels" "$o" -- shape sphere --radius 40nm --spacing 1nm --max-voxels 1000 -o "$o"

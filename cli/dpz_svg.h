@@ -134,7 +134,12 @@ typedef struct dpz_svg_frame {
     char clip_id[40]; /* id of the clipPath of the plot area ("" before axes) */
 } dpz_svg_frame;
 
-/* Sets up a linear axis with nice ticks covering [lo, hi] (data units). */
+/* Largest number of ticks on a linear axis. */
+#define DPZ_SVG_MAX_TICKS 11
+
+/* Sets up a linear axis covering [lo, hi] (data units) with Heckbert (1990) loose labels
+ * for about `nticks` ticks: tick counts nticks-1 .. nticks+3 are tried and the one whose
+ * axis the data fill best is kept (at most DPZ_SVG_MAX_TICKS ticks). */
 void dpz_svg_axis_linear(dpz_svg_axis *a, double lo, double hi, int nticks);
 /* Sets up a log10 axis covering [lo, hi] (lo > 0): whole decades. */
 void dpz_svg_axis_log(dpz_svg_axis *a, double lo, double hi);

@@ -391,7 +391,30 @@ int dpz_svg_ticks(double lo, double hi, int nticks, double *tmin, double *tmax,
 void dpz_svg_axis_linear(dpz_svg_axis *a, double lo, double hi, int nticks)
 {
     memset(a, 0, sizeof *a);
-    if (dpz_svg_ticks(lo, hi, nticks, &a->lo, &a->hi, &a->step, &a->nfrac) != 0) {
+    /* Heckbert's loose labels for a few tick counts around the request; keep the one
+     * whose axis is filled best by the data (ties: the count closest to the request), so
+     * that e.g. 800..2000 gets 800, 1000, ..., 2000 rather than 500..2000. */
+    double best_cov = -1.0;
+    for (int k = 0; k < 5; k++) {
+        static const int order[5] = {0, 1, 2, -1, 3};
+        int n = nticks + order[k];
+        double t0, t1, st;
+        int nf;
+        if (n < 2 || dpz_svg_ticks(lo, hi, n, &t0, &t1, &st, &nf) != 0)
+            continue;
+        double count = (t1 - t0) / st;
+        if (count > DPZ_SVG_MAX_TICKS - 1 + 1e-9)
+            continue;
+        double cov = t1 > t0 ? (hi - lo) / (t1 - t0) : 0.0;
+        if (cov > best_cov + 1e-9) {
+            best_cov = cov;
+            a->lo = t0;
+            a->hi = t1;
+            a->step = st;
+            a->nfrac = nf;
+        }
+    }
+    if (best_cov < 0.0) {
         a->lo = 0.0;
         a->hi = 1.0;
         a->step = 0.2;

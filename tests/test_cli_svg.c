@@ -281,6 +281,34 @@ static void test_svg_ticks_properties(void **state)
     }
 }
 
+/* The axis helper tries a few tick counts and keeps the best-filled axis. 800..2000 with
+ * 6 ticks: Heckbert gives step nice(400) = 500 and 500..2000 (filled 80 %) for 6 and 7
+ * ticks (range nice(1200) = 2000), step nice(2000/7 = 285.7) = 200 and 800..2000
+ * (filled 100 %) for 8 (by hand). */
+static void test_svg_axis_best_filled(void **state)
+{
+    (void)state;
+    dpz_svg_axis a;
+    dpz_svg_axis_linear(&a, 800.0, 2000.0, 6);
+    assert_close(a.lo, 800.0, 1e-12);
+    assert_close(a.hi, 2000.0, 1e-12);
+    assert_close(a.step, 200.0, 1e-12);
+    /* 600..1400 is already filled by the requested count: step 200. */
+    dpz_svg_axis_linear(&a, 600.0, 1400.0, 6);
+    assert_close(a.lo, 600.0, 1e-12);
+    assert_close(a.step, 200.0, 1e-12);
+    /* Never more than DPZ_SVG_MAX_TICKS ticks; bad input falls back to 0..1. */
+    uint64_t seed = 0x2385u;
+    for (int t = 0; t < 500; t++) {
+        double lo = 100 * dpz_test_rand(&seed), hi = lo + 50 * fabs(dpz_test_rand(&seed));
+        dpz_svg_axis_linear(&a, lo, hi, 6);
+        assert_true((a.hi - a.lo) / a.step <= DPZ_SVG_MAX_TICKS - 1 + 1e-9);
+        assert_true(a.lo <= lo + 1e-8 * a.step && a.hi >= hi - 1e-8 * a.step);
+    }
+    dpz_svg_axis_linear(&a, NAN, 1.0, 6);
+    assert_true(a.lo == 0.0 && a.hi == 1.0);
+}
+
 static void test_svg_pow10_label(void **state)
 {
     (void)state;
@@ -677,6 +705,7 @@ int main(void)
         cmocka_unit_test(test_svg_nicenum_heckbert),
         cmocka_unit_test(test_svg_ticks_loose_labels),
         cmocka_unit_test(test_svg_ticks_properties),
+        cmocka_unit_test(test_svg_axis_best_filled),
         cmocka_unit_test(test_svg_pow10_label),
         cmocka_unit_test(test_svg_output_well_formed),
         cmocka_unit_test(test_svg_allocation_failure),

@@ -578,6 +578,16 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
             return cli_fail("sweep: cannot cut %s back: %s", path, strerror(errno));
         }
     }
+    /* A static solve that failed in the first session still makes the run a failure. */
+    snprintf(path, sizeof path, "%s/static.json", o->dir);
+    char *stext = NULL;
+    if (dpz_sweep_read_file(path, &stext, &len, &e) == DPZ_OK) {
+        cJSON *sj = cJSON_Parse(stext);
+        if (cJSON_IsNull(cJSON_GetObjectItemCaseSensitive(sj, "chi")))
+            o->any_failed = 1;
+        cJSON_Delete(sj);
+        free(stext);
+    }
     /* Adopt the recorded results (with their timings). */
     cJSON *mine = cJSON_DetachItemFromObjectCaseSensitive(old, "results");
     cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "results", mine);

@@ -166,9 +166,21 @@ static unsigned plan_flags(dpz_plan plan)
 }
 
 /* fftw_init_threads must run once before any threaded planning (callers such as the
- * benchmarks may plan threaded transforms of their own); FFTW's planner is not
- * thread-safe, so operators are created from one thread (documented in the header). */
+ * benchmarks may plan threaded transforms of their own) and before wisdom is imported
+ * (it registers the threaded algorithms, and wisdom only loads into a planner with the
+ * same set); FFTW's planner is not thread-safe, so operators are created from one thread
+ * (documented in the header). */
 static int fftw_threads_ready = 0;
+
+int dpz__fftw_threads_init(void)
+{
+    if (!fftw_threads_ready) {
+        if (!fftw_init_threads())
+            return -1;
+        fftw_threads_ready = 1;
+    }
+    return 0;
+}
 
 /* FFTW buffers come from fftw_malloc (SIMD alignment); the probe routes each through the
  * library's allocation hook so that tests can provoke their failure too. */
@@ -429,12 +441,9 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
 
     /* Plan first: a measuring planner overwrites the arrays it plans on. Each plan is
      * single-threaded: the operator distributes lines and blocks over its threads. */
-    if (!fftw_threads_ready) {
-        if (!fftw_init_threads()) {
-            dpz_fftop_destroy(op);
-            return dpz_err_set(err, DPZ_EFFTW, "FFT operator: fftw_init_threads failed");
-        }
-        fftw_threads_ready = 1;
+    if (dpz__fftw_threads_init() != 0) {
+        dpz_fftop_destroy(op);
+        return dpz_err_set(err, DPZ_EFFTW, "FFT operator: fftw_init_threads failed");
     }
     fftw_plan_with_nthreads(1);
     unsigned flags = plan_flags(opts ? opts->plan : DPZ_PLAN_ESTIMATE);

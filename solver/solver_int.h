@@ -45,4 +45,8 @@ void dpz__kernel_tab(dpz_dipole_model model, double k, double d,
                      const dpz__igt_table *tab, long i, long j, long l,
                      double complex g[6]);
 
+/* Runs fftw_init_threads once per process (fftop.c); 0 on success, -1 on failure. Call
+ * before planning and before importing wisdom. */
+int dpz__fftw_threads_init(void);
+
 #endif

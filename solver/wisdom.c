@@ -9,12 +9,18 @@
 
 #include <fftw3.h>
 
+#include "solver_int.h"
+
 dpz_status dpz_wisdom_load(const char *path, int *loaded, dpz_err *err)
 {
     if (loaded)
         *loaded = 0;
     if (!path || !*path)
         return dpz_err_set(err, DPZ_EINVAL, "wisdom: no file name");
+    /* Wisdom records the planner's set of algorithms, threaded ones included: register
+     * them first, as every operator does before planning, or the file will not load. */
+    if (dpz__fftw_threads_init() != 0)
+        return dpz_err_set(err, DPZ_EFFTW, "wisdom: fftw_init_threads failed");
     FILE *f = fopen(path, "r");
     if (!f) {
         if (errno == ENOENT)

@@ -213,6 +213,27 @@ static void test_vswf_bessel_match_scipy(void **state)
     }
 }
 
+/* Far arguments (a multipole origin metres away from nanometre voxels): scipy 1.10.1
+ * spherical_jn. Miller's recursion was 4e-7 off at rho = 1000 and ran ~rho steps. */
+static void test_vswf_bessel_far_argument(void **state)
+{
+    (void)state;
+    static const struct {
+        int n;
+        double rho, j;
+    } far[] = {
+        {0, 1000.3, 0.00095585582128268132}, {1, 1000.3, -0.00029185822631007841},
+        {3, 1000.3, 0.00028707600530953866}, {0, 2e+17, 4.1136803855183093e-18},
+        {1, 2e+17, -2.8421178170163762e-18}, {3, 2e+17, 2.8421178170163762e-18},
+    };
+    double j[4];
+    for (size_t i = 0; i < sizeof far / sizeof far[0]; i++) {
+        dpz__sph_jn(far[i].rho, 3, j);
+        /* relative to the envelope 1/rho of j_n for n << rho */
+        assert_close_abs(j[far[i].n], far[i].j, TOL_FN, 1.0 / far[i].rho);
+    }
+}
+
 /* Gauss-Legendre nodes and weights on [-1, 1] by Newton iteration on P_n (common
  * practice; e.g. Press et al., Numerical Recipes, sec. 4.6). */
 static void gauss_legendre(int n, double *x, double *w)
@@ -515,6 +536,7 @@ int main(void)
     const struct CMUnitTest tests[] = {
         cmocka_unit_test(test_vswf_harmonics_match_scipy),
         cmocka_unit_test(test_vswf_bessel_match_scipy),
+        cmocka_unit_test(test_vswf_bessel_far_argument),
         cmocka_unit_test(test_vswf_orthonormal_quadrature),
         cmocka_unit_test(test_vswf_curl_relations),
         cmocka_unit_test(test_vswf_order1_cartesian_matches),

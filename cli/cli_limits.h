@@ -43,7 +43,10 @@ double cli_memory_available(const char **source);
  * bytes, or -1 with a message in msg[0..len). */
 int cli_parse_memory_size(const char *text, double *bytes, char *msg, size_t len);
 
-/* The check itself: the limit is --max-memory when given, else cli_memory_available().
+/* The checks made before a computing command allocates: a --origin farther from the voxel
+ * grid's box than the box's diagonal is refused (the dipole reduction about it means
+ * nothing; see limits.c); then the memory limit is --max-memory when given, else
+ * cli_memory_available().
  * Returns CLI_OK when the estimate fits (or no limit is known), else prints
  * "dipolize: CMD: this run needs about X but ... allows Y; ..." and returns CLI_USAGE.
  * A malformed --max-memory also gives CLI_USAGE with its message. */

@@ -189,10 +189,41 @@ static void human(double b, char *buf, size_t len)
     snprintf(buf, len, i ? "%.3g %s" : "%.0f %s", b, u[i]);
 }
 
+/* The multipole origin must lie on or near the particle: farther from the grid's box
+ * than the box's diagonal, the order-1 (dipole) part of the response about that point is
+ * a small remainder of the higher orders, and far enough away the regular waves at the
+ * voxels underflow and the tensor comes out as zeros. */
+static int origin_check(const char *cmd, const dpz_grid *g, const dpz_setup *s)
+{
+    if (!s->has_origin)
+        return CLI_OK;
+    size_t n[3] = {g->nx, g->ny, g->nz};
+    double dist2 = 0.0, diag2 = 0.0;
+    for (int ax = 0; ax < 3; ax++) {
+        double lo = g->origin[ax] - 0.5 * g->d;
+        double hi = g->origin[ax] + g->d * ((double)n[ax] - 0.5);
+        double o = s->origin_m[ax];
+        double out = o < lo ? lo - o : o > hi ? o - hi : 0.0;
+        dist2 += out * out;
+        diag2 += (hi - lo) * (hi - lo);
+    }
+    if (dist2 <= diag2)
+        return CLI_OK;
+    return cli_fail("%s: --origin %.6g,%.6g,%.6g m lies %.3g m outside the voxel grid, "
+                    "more than the grid's diagonal (%.3g m): about such a point the "
+                    "response is not that of a point dipole; choose an origin on or near "
+                    "the particle",
+                    cmd, s->origin_m[0], s->origin_m[1], s->origin_m[2], sqrt(dist2),
+                    sqrt(diag2));
+}
+
 int cli_limits_check(const cli_args *a, const dpz_grid *grid, const dpz_setup *setup,
                      cli_work work)
 {
     const char *cmd = a->cmd->name;
+    int rc = origin_check(cmd, grid, setup);
+    if (rc != CLI_OK)
+        return rc;
     const char *v = cli_get(a, "--max-memory");
     double limit = 0.0;
     const char *source = NULL;

@@ -38,6 +38,14 @@ static double max_abs(const double complex *t, size_t n)
     return m;
 }
 
+/* A solve that did not converge leaves an iterate, not a result (dpz_iter.h): the
+ * numbers derived from it are reported as NaN (null in JSON, nan in tables). */
+static void fill_nan(double complex *v, size_t n)
+{
+    for (size_t i = 0; i < n; i++)
+        v[i] = CMPLX(NAN, NAN);
+}
+
 static double now_s(void)
 {
     struct timespec t;
@@ -302,10 +310,15 @@ static int run_static(const cli_args *a)
     }
     double secs = now_s() - t0;
     cli_progress(a, "static solve finished in %.1f s", secs);
-    if (levels)
+    if (s != DPZ_OK) {
+        fill_nan(&chis[0][0][0], 9 * nl);
+        fill_nan(&chi[0][0], 9);
+        fill_nan(&chi_err[0][0], 9);
+    } else if (levels) {
         rc = extrapolate_normalized(&ref, &chis[0][0][0], 9, &chi[0][0], &chi_err[0][0]);
-    else
+    } else {
         memcpy(chi, chis[0], sizeof chi);
+    }
     if (rc != CLI_OK) {
         cli_refine_free(&ref);
         job_free(&j);
@@ -524,7 +537,17 @@ static int run_tensor(const cli_args *a)
     /* Diagnostics, T block and cross sections come from the finest level. */
     dpz_tensor *t = &ts[nl - 1];
     double complex A[6][6], A_err[6][6];
-    if (levels) {
+    if (s != DPZ_OK || !t->converged) {
+        for (size_t l = 0; l < nl; l++) {
+            fill_nan(&ts[l].A[0][0], 36);
+            fill_nan(&ts[l].T[0][0], 36);
+        }
+        fill_nan(&A[0][0], 36);
+        fill_nan(&A_err[0][0], 36);
+        t->reciprocity = t->energy_balance = t->dipole_validity = NAN;
+        for (int i = 0; i < 6; i++)
+            t->absorption_eig[i] = t->fluct_eig[i] = NAN;
+    } else if (levels) {
         double complex *vals = calloc(nl * 36, sizeof *vals);
         if (vals) {
             for (size_t l = 0; l < nl; l++)
@@ -570,10 +593,16 @@ static int run_tensor(const cli_args *a)
     /* The finest lattice decides what the result can resolve. */
     double mkd = lattice_kd(levels ? ref.grid[nl - 1] : j.grid, j.setup.eps_label, lam);
     lattice_verdict(mkd, v4, sizeof v4);
+    int converged = s == DPZ_OK && t->converged;
     validity_verdict(t->dipole_validity, v1, sizeof v1);
     recip_verdict(t->reciprocity, j.setup.solve.tol, v2, sizeof v2);
     energy_verdict(t, j.setup.solve.tol, v3, sizeof v3);
-    int converged = s == DPZ_OK && t->converged;
+    if (!converged) {
+        const char *na = "not available: a solve did not converge";
+        snprintf(v1, sizeof v1, "%s", na);
+        snprintf(v2, sizeof v2, "%s", na);
+        snprintf(v3, sizeof v3, "%s", na);
+    }
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
         cli_json_add_number(o, "wavelength_m", lam);
@@ -781,6 +810,13 @@ static int run_expand(const cli_args *a)
         return rc;
     }
     int converged = s == DPZ_OK && ex->converged;
+    if (!converged) {
+        fill_nan(&ex->C0[0][0], 9);
+        fill_nan(&ex->C2[0][0], 9);
+        fill_nan(&ex->C3[0][0], 9);
+        fill_nan(&ex->C4[0][0], 9);
+        ex->fit_residual = ex->radiative_check = NAN;
+    }
     /* The largest size parameter sets the shortest wavelength: lambda0 = 2 pi n_h a_eq /
      * x in the host, so |m| k d is largest there. */
     double xmax = 0.0;
@@ -832,8 +868,9 @@ static int run_expand(const cli_args *a)
         printf("fit residual: %.2e (largest relative, over elements)\n",
                ex->fit_residual);
         printf("radiative check |C3 + 2i/9 I| / (2/9): %.2e%s\n", ex->radiative_check,
-               ex->radiative_check < 0.05 ? " (ok)"
-                                          : "  WARNING: C3 departs from -(2i/9) I");
+               isnan(ex->radiative_check)   ? " (not available: a solve did not converge)"
+               : ex->radiative_check < 0.05 ? " (ok)"
+                                            : "  WARNING: C3 departs from -(2i/9) I");
         printf("caution: %s\n", C2_CAUTION);
         printf("lattice at the largest x: %s\n", v_lat);
         printf("solver: worst of all solves: %zu iterations, residual %.2e%s\n",

@@ -270,9 +270,18 @@ run "$bin" tensor "$tmp/s.vtk" --eps 2.25 --wavelength 200nm --bogus
 [ "$(rc)" = 2 ] && [ ! -s "$tmp/out" ] && ok "unknown option: exit 2, no output" || bad "unknown option"
 # Non-convergence: exit 1 and the JSON still says so.
 run "$bin" tensor "$tmp/s.vtk" --eps 12.25 --wavelength 200nm --max-iter 1 --json
-[ "$(rc)" = 1 ] && pycheck "no convergence: exit 1, converged false" '
+[ "$(rc)" = 1 ] && pycheck "no convergence: exit 1, converged false, no numbers" '
 assert d["solver"]["converged"] is False
+# an unconverged iterate is no result: every alpha entry is null, the layout stays
+assert all(v is None for r in d["alpha"]["ee"] for c in r for v in c)
+assert d["diagnostics"]["dipole_validity"] is None
 ' || bad "no convergence: exit $(rc)"
+
+run "$bin" static "$tmp/s.vtk" --eps 12.25 --max-iter 1 --json
+[ "$(rc)" = 1 ] && pycheck "static no convergence: exit 1, chi null" '
+assert d["solver"]["converged"] is False
+assert all(v is None for r in d["chi"] for c in r for v in c)
+' || bad "static no convergence: exit $(rc)"
 
 echo "e2e_cli_contract: $pass passed, $fail failed"
 [ "$fail" = 0 ]

@@ -138,9 +138,12 @@ dpz_status dpz_sweep_write_atomic_parts(const char *dir, const char *name,
 const char *dpz_sweep_inputs_differ(const char *summary_a, const char *summary_b,
                                     int with_shard);
 
-/* Merges finished shard directories into OUT (see dpz_cli_merge). DPZ_EINVAL /
- * DPZ_EFORMAT with one sentence naming the directory, file and line on any problem, in
- * which case nothing is left at OUT. */
+/* Merges finished shard directories into OUT (see dpz_cli_merge and
+ * docs/sweep-format.md): every check comes before any write. Statuses: DPZ_EINVAL
+ * (different inputs, a wavelength missing or duplicated, a directory given twice, OUT not
+ * empty), DPZ_EFORMAT (a damaged or unfinished table: file and line), DPZ_EIO (a missing
+ * or unreadable directory or file, a failed write), DPZ_ENOMEM; each with one sentence in
+ * err, and nothing left at OUT. */
 dpz_status dpz_sweep_merge(const char *const *dirs, size_t n_dirs, const char *out,
                            dpz_err *err);
 

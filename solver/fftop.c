@@ -43,8 +43,8 @@
 
 /* Consecutive z frequencies processed together in one plane block. The copies in and out
  * of the slab then move whole cache lines, and FFTW's plane passes run over ZBLOCK
- * contiguous transforms at a time, which it vectorizes best: 16 measured faster than 4
- * and 8 on 64^3 (benchmarks/README.md). */
+ * contiguous transforms at a time: 16 measured faster than 4 on 64^3
+ * (benchmarks/README.md). */
 #define ZBLOCK 16
 /* Lines per z-transform call (a unit of work for the threads). */
 #define ZLINES 16

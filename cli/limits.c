@@ -15,19 +15,19 @@
 
 #include "dpz_operator.h"
 
-/* Solver vectors of length 3 n_occ per solver kind (solver/iter.c: x, r, M^-1, p, v are
- * common; BiCGSTAB adds r^, s, t, p^, s^; COCG adds z; GMRES(m) adds the m + 1 basis
- * vectors). */
+/* Solver vectors of length 3 n_occ per solver kind (solver/iter.c: x, r, p, v are
+ * common; BiCGSTAB adds r^, t and one for p^ then s^; COCG adds z; GMRES(m) adds the
+ * m + 1 basis vectors). */
 static double solver_vectors(const dpz_solve_opts *o)
 {
     switch (o->kind) {
     case DPZ_SOLVER_COCG:
-        return 6.0;
+        return 5.0;
     case DPZ_SOLVER_GMRES:
-        return 5.0 + (double)(o->restart ? o->restart : 30) + 1.0;
+        return 4.0 + (double)(o->restart ? o->restart : 30) + 1.0;
     case DPZ_SOLVER_BICGSTAB:
     default:
-        return 10.0;
+        return 7.0;
     }
 }
 
@@ -39,8 +39,9 @@ double cli_memory_need(const dpz_grid *grid, const dpz_setup *setup, cli_work wo
     double vec = 3.0 * nocc * (double)sizeof(double complex);
     /* dpz_fftop_memory_need works in size_t; past 2^50 cells its products could wrap,
      * so such grids are estimated from the padded size 8 cells x 9 components. */
-    double op = cells < 0x1p50 ? (double)dpz_fftop_memory_need(grid)
-                               : 72.0 * cells * (double)sizeof(double complex);
+    double op = cells < 0x1p50
+                    ? (double)dpz_fftop_memory_need_threads(grid, setup->op.threads)
+                    : 72.0 * cells * (double)sizeof(double complex);
     double nvec = solver_vectors(&setup->solve) + 2.0; /* + right-hand side, solution */
     if (work == CLI_WORK_SWEEP)
         nvec += 6.0;

@@ -88,6 +88,7 @@ printf '%-58s %-16s %-14s\n' "1. same, instructions (callgrind), 32^3" "$cg_rati
 printf '%-58s %-16s %-14s\n' "2. peak RSS of 'dipolize tensor', filled ${edge}^3, B/voxel" "$bpv" "<= 1024 (100^3)"
 printf '%-58s %-16s %-14s\n' "3. exponent e of t ~ N^e, edges $(val range $p)" "$(val exponent $p)" "<= 1.15"
 printf '%-58s %-16s %-14s\n' "3. same after dividing t by log N" "$(val exponent_nlogn $p)" "<= 1.15"
+printf '%-58s %-16s %-14s\n' "3. (reference) same fit for the six full FFTs" "$(val exponent_fft6 $p)" "-"
 printf '%-58s %-16s %-14s\n' "3. apply speedup, 2 threads vs 1, 64^3 (wall, median)" "$(val speedup2 $p)" ">= 1.6"
 d=$work/demo.txt
 printf '%-58s %-16s %-14s\n' "4. demo sweep: iterations / wavelength (6 RHS), cold" "$(val iter_cold $d)" "-"

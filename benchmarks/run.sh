@@ -3,7 +3,7 @@
 # operator and the solves and prints ONE table, each figure beside its target.
 # Default: a few minutes (cubes up to 64^3, memory on a 48^3 cube, part of the demo
 # sweep). --full: cubes up to 128^3, memory on the 100^3 cube of the target, the whole
-# demo sweep and a ~18,000-voxel split ring near its resonance (tens of minutes on a
+# demo sweep and a ~20,000-voxel split ring near its resonance (an hour or more on a
 # loaded machine). BUILD_DIR (default build) holds a Release build with the targets
 # dipolize, bench_perf and bench_sweep.
 set -eu
@@ -58,8 +58,8 @@ bpv=$(awk -v k="$rss_kb" -v n="$vox" 'BEGIN{printf "%.0f", k * 1024 / n}')
 log "bench_sweep: demo split ring"
 if [ $full = 1 ]; then
     "$build/bench_sweep" 5 1000 2150 50 1e-5 >"$work/demo.txt"
-    log "bench_sweep: ~18,000-voxel split ring near its LC resonance"
-    "$build/bench_sweep" 1.5 1550 1650 50 1e-5 >"$work/big.txt"
+    log "bench_sweep: ~20,000-voxel split ring near its LC resonance (1600 nm)"
+    "$build/bench_sweep" 1.4 1600 1650 50 1e-5 >"$work/big.txt"
 else
     "$build/bench_sweep" 5 1000 2150 230 1e-5 >"$work/demo.txt"
 fi

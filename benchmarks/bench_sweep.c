@@ -8,7 +8,7 @@
  * in a host of index 1.45, COCG with Jacobi, cm-rr dipoles.
  * Usage: bench_sweep SPACING_NM LO_NM HI_NM STEP_NM TOL [THREADS]
  *   the demo:                  bench_sweep 5 1000 2150 50 1e-5
- *   ~18,000 voxels near the LC resonance: bench_sweep 1.5 1500 1700 50 1e-5
+ *   ~20,000 voxels near the LC resonance (1600 nm): bench_sweep 1.4 1600 1650 50 1e-5
  * For each wavelength: the summed iterations of the six solves and the seconds (CPU time
  * of the process: comparable under load), cold (zero initial guess) and warm, each solve
  * on its own operator; then the totals. Output lines "key value" at the end for run.sh.

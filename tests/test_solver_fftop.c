@@ -167,6 +167,23 @@ static void test_fftop_matches_dense_line(void **state)
     dpz_grid_destroy(g);
 }
 
+/* Single layers: no padding and no transform along that axis (p = 1), so the z pass is
+ * skipped (nz = 1) or the plane has one row (nx = 1); nz = 11 pads to 24 z frequencies,
+ * one block of 16 and a remainder block of 8. */
+static void test_fftop_matches_dense_layers(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(4, 3, 1, SHAPE_HALF);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+    g = make_grid(1, 5, 3, SHAPE_FULL);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+    g = make_grid(2, 2, 11, SHAPE_HALF);
+    compare_all_models(g);
+    dpz_grid_destroy(g);
+}
+
 static void test_fftop_matches_dense_sphere_holes(void **state)
 {
     (void)state;
@@ -500,6 +517,7 @@ int main(void)
         cmocka_unit_test(test_fftop_matches_dense_noncubic),
         cmocka_unit_test(test_fftop_matches_dense_single_voxel),
         cmocka_unit_test(test_fftop_matches_dense_line),
+        cmocka_unit_test(test_fftop_matches_dense_layers),
         cmocka_unit_test(test_fftop_matches_dense_sphere_holes),
         cmocka_unit_test(test_fftop_complex_symmetric),
         cmocka_unit_test(test_fftop_threads_agree),

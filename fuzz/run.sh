@@ -25,11 +25,14 @@ fi
 targets=""
 for n in $names; do targets="$targets fuzz_$n"; done
 
-CC=clang cmake -S . -B "$build" -DDPZ_FUZZ=ON -DCMAKE_BUILD_TYPE=Debug >/dev/null
-# shellcheck disable=SC2086
-cmake --build "$build" -j "$jobs" --target $targets >/dev/null
-
 work=$(mktemp -d "${TMPDIR:-/tmp}/dpz-fuzz.XXXXXX")
+# The build's own output (compiler warnings included) is shown only if it fails.
+if ! { CC=clang cmake -S . -B "$build" -DDPZ_FUZZ=ON -DCMAKE_BUILD_TYPE=Debug &&
+    cmake --build "$build" -j "$jobs" --target $targets; } >"$work/build.log" 2>&1; then
+  cat "$work/build.log"
+  echo "fuzz: the build failed"
+  exit 1
+fi
 export ASAN_OPTIONS=detect_leaks=1:abort_on_error=1:allocator_may_return_null=1
 export UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1
 failed=0

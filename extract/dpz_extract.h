@@ -74,7 +74,8 @@ typedef struct dpz_tensor {
  * wavelength's solutions; zero vectors for none) and the solutions on return (in the
  * order of out->rhs). Returns DPZ_ENOCONV (with `out` filled and out->converged = 0) when
  * any right-hand side fails to converge; DPZ_EINVAL for bad input (empty grid, lambda0 or
- * host index not positive, a label with the host's permittivity), DPZ_ENOMEM, DPZ_EFFTW,
+ * host index not positive, a label with the host's permittivity), DPZ_ERANGE for a size
+ * parameter k a_eq below 1e-30 (the static tensor applies), DPZ_ENOMEM, DPZ_EFFTW,
  * DPZ_ELAPACK otherwise. Solver options left all zero (tol 0, max_iter 0) mean
  * dpz_solve_opts_default(). Builds one FFT operator per call. */
 dpz_status dpz_tensor_compute(const dpz_setup *setup, double lambda0_m, dpz_tensor *out,

@@ -126,6 +126,18 @@ dpz_status dpz_tensor_compute(const dpz_setup *setup, double lambda0_m, dpz_tens
     memset(out, 0, sizeof *out);
     const dpz_grid *g = setup->grid;
     double k = 2.0 * DPZ_XPI * setup->host_index / lambda0_m;
+    /* Far below x = k a_eq ~ 1e-30 the order-1 T block (~x^3) and the magnetic response
+     * (~x^2) run into the underflow range of doubles and came out as zeros (a_mm at
+     * x = 1e-68, every block at 1e-108), while the tensor equals the static one to all
+     * digits long before: refuse instead of returning zeros. */
+    double x = k * dpz_grid_aeq(g);
+    if (!(x >= 1e-30))
+        return dpz_err_set(
+            err, DPZ_ERANGE,
+            "tensor: wavelength %g m gives the size parameter x = k a_eq = "
+            "%.3g, below 1e-30: at such sizes the tensor is the static "
+            "one (compute the static tensor instead)",
+            lambda0_m, x);
     out->lambda0_m = lambda0_m;
     out->k_per_m = k;
     out->host_index = setup->host_index;

@@ -394,7 +394,7 @@ void dpz_svg_axis_linear(dpz_svg_axis *a, double lo, double hi, int nticks)
     /* Heckbert's loose labels for a few tick counts around the request; keep the one
      * whose axis is filled best by the data (ties: the count closest to the request), so
      * that e.g. 800..2000 gets 800, 1000, ..., 2000 rather than 500..2000. */
-    double best_cov = -1.0;
+    double best_cov = -1.0, best_miss = 0.0;
     for (int k = 0; k < 5; k++) {
         static const int order[5] = {0, 1, 2, -1, 3};
         int n = nticks + order[k];
@@ -406,8 +406,10 @@ void dpz_svg_axis_linear(dpz_svg_axis *a, double lo, double hi, int nticks)
         if (count > DPZ_SVG_MAX_TICKS - 1 + 1e-9)
             continue;
         double cov = t1 > t0 ? (hi - lo) / (t1 - t0) : 0.0;
-        if (cov > best_cov + 1e-9) {
+        double miss = fabs(count + 1.0 - nticks);
+        if (cov > best_cov + 1e-9 || (cov > best_cov - 1e-9 && miss < best_miss)) {
             best_cov = cov;
+            best_miss = miss;
             a->lo = t0;
             a->hi = t1;
             a->step = st;

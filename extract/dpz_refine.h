@@ -7,10 +7,7 @@
  * from the fit). Measured on spheres against Mie theory (docs/accuracy.md): the error
  * is roughly linear in h but carries staircase oscillations (plain voxels) or plateaus
  * (boundary fill fractions), so the linear model is the default choice and the estimate
- * must include the irregular part; over 40 refined sphere values this estimate covered
- * the true error 31 times, the CLI's simpler one (extrapolation step plus largest
- * residual) 36 times, so the CLI keeps its own. The irregular part is covered, not
- * removed, by the estimate. */
+ * must include the irregular part, which is covered, not removed. */
 #ifndef DPZ_EXTRACT_REFINE_H
 #define DPZ_EXTRACT_REFINE_H
 
@@ -37,15 +34,19 @@ typedef enum {
  * Real and imaginary parts are fitted separately by least squares (LAPACKE_dgels) with
  * the chosen model; value[e] receives v0 and error[e] the estimate of |v0 - v_exact| for
  * the real and imaginary parts (as the real and imaginary parts of error[e]):
- *     error = |v0(linear) - v0(quadratic)| + 2 s(v0) + max_l |residual_l|,
- * the spread between the two models fitted to the same points, twice the standard error
- * of v0 from the residual of the chosen fit (zero when the fit has no degree of freedom)
- * and the largest residual of that fit (the irregular, staircase part of the data, which
- * no smooth model removes). The quadratic needs 3 levels, the spread needs 3 levels; with
- * 2 levels only the linear model applies and the error is the extrapolation step |v0 -
- * v(h_min)|. Statuses: DPZ_EINVAL (NULL pointers, n_levels < 2 or >
- * DPZ_REFINE_MAX_LEVELS, too few levels for the model, a spacing <= 0, non-finite or
- * repeated, a non-finite value), DPZ_ENOMEM, DPZ_ELAPACK. */
+ *     error = max(|v0 - v(h_min)|, |v0(linear) - v0(quadratic)| + 2 s(v0))
+ *             + max_l |residual_l|:
+ * the larger of Richardson's own estimate (the extrapolation step from the finest
+ * spacing) and the fit-based one (the spread between the two models fitted to the same
+ * points plus twice the standard error of v0 from the residual of the chosen fit, zero
+ * without degrees of freedom), plus the largest residual of the chosen fit (the
+ * irregular, staircase part of the data, which no smooth model removes). On 40 refined
+ * sphere polarizabilities (docs/accuracy.md) the step alone missed the true error 4
+ * times, the fit-based part alone 9 times, the larger of the two twice. The quadratic
+ * needs 3 levels, the spread needs 3 levels; with 2 levels only the linear model applies
+ * and the error is the extrapolation step |v0 - v(h_min)|. Statuses: DPZ_EINVAL (NULL
+ * pointers, n_levels < 2 or > DPZ_REFINE_MAX_LEVELS, too few levels for the model, a
+ * spacing <= 0, non-finite or repeated, a non-finite value), DPZ_ENOMEM, DPZ_ELAPACK. */
 dpz_status dpz_refine_extrapolate(size_t n_levels, const double *h,
                                   const double complex *v, size_t n_values,
                                   dpz_refine_model model, double complex *value,

@@ -630,13 +630,19 @@ dpz_status dpz_shape_voxelize(dpz_grid **out, const dpz_shape *s, double d_m,
         off[q] = fractions ? ((q + 0.5) / S - 0.5) * d_m : 0.0;
     const double inv_samples = 1.0 / ((double)S * S * S);
     const double half_diag = 0.5 * sqrt(3.0) * d_m; /* every sample lies within it */
+    /* Voxel centres relative to the shape centre as d (i - (n-1)/2): the half-integer
+     * offset is exact and its product with d is exactly odd under i -> n-1-i, so a centre
+     * lying on a boundary (core radius 40 nm at 2 nm) is classified the same on both
+     * sides. origin + d i rounds differently for the two mirror images. */
+    double half[3] = {0.5 * (double)(n[0] - 1), 0.5 * (double)(n[1] - 1),
+                      0.5 * (double)(n[2] - 1)};
     size_t idx = 0;
     for (size_t i = 0; i < n[0]; i++) {
-        double x = g->origin[0] + d_m * (double)i;
+        double x = d_m * ((double)i - half[0]);
         for (size_t j = 0; j < n[1]; j++) {
-            double y = g->origin[1] + d_m * (double)j;
+            double y = d_m * ((double)j - half[1]);
             for (size_t k = 0; k < n[2]; k++, idx++) {
-                double z = g->origin[2] + d_m * (double)k;
+                double z = d_m * ((double)k - half[2]);
                 if (!fractions) {
                     double r[3] = {x, y, z}, b[3];
                     to_body(R, r, b);

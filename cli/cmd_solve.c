@@ -213,8 +213,9 @@ static cJSON *refine_json(const cli_refine *r)
     cJSON_AddStringToObject(
         o, "method",
         "value/V of each level fitted by least squares with a line in the spacing, "
-        "extrapolated to zero spacing, times the true volume; error = spread between the "
-        "linear and quadratic fits + 2 standard errors + largest residual (2 levels: the "
+        "extrapolated to zero spacing, times the true volume; error = the larger of the "
+        "extrapolation step from the finest level and (spread between the linear and "
+        "quadratic fits + 2 standard errors), plus the largest residual (2 levels: the "
         "extrapolation step)");
     return o;
 }
@@ -255,9 +256,9 @@ static void refine_table(const cli_refine *r)
                                                : "the true shape or mesh");
     for (size_t k = 0; k < r->n; k++)
         printf(" %.4g m -> %zu%s", r->d[k], r->grid[k]->n_occ, k + 1 < r->n ? "," : "");
-    printf("\nvalues extrapolated linearly to zero spacing; error = spread to a "
-           "quadratic fit "
-           "+ 2 standard errors + largest residual\n");
+    printf("\nvalues extrapolated linearly to zero spacing; error = larger of the "
+           "extrapolation step and (spread to a quadratic fit + 2 standard errors), plus "
+           "the largest residual\n");
 }
 
 static int run_static(const cli_args *a)

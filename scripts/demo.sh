@@ -69,9 +69,9 @@ if x:
           f"{x['ext_dipole_m2']:.4e} m^2 from the 6x6 dipole ({100*x['rel_diff']:.1f}% apart)")
 PY
 echo
-echo "-- 5. sweep 1000..2150 nm (24 wavelengths, tolerance 1e-5), then plots and a report"
+echo "-- 5. sweep 1000..2450 nm (30 wavelengths, tolerance 1e-5), then plots and a report"
 "$bin" sweep "$out/srr.vtk" --material "1=$metal" --host-index $host \
-    --wavelengths 1000nm:2150nm:50nm $solve --tol 1e-5 -o "$out/sweep"
+    --wavelengths 1000nm:2450nm:50nm $solve --tol 1e-5 -o "$out/sweep"
 "$bin" plot "$out/sweep" >/dev/null
 "$bin" report "$out/sweep" >/dev/null
 /usr/bin/python3 - "$out/sweep/alpha.csv" <<'PY'
@@ -89,3 +89,5 @@ find "$out" -type f | sort | while read -r f; do
 done
 echo "   srr.vtk opens in any VTK viewer; the JSON and CSV files hold every number in SI"
 echo "   units; $out/sweep/report.html and $out/sweep/plots/*.svg open in a browser."
+echo
+echo "report: $PWD/$out/sweep/report.html"

@@ -88,7 +88,9 @@ dpz_status dpz_static_compute(const dpz_setup *setup, double complex chi[3][3],
                               dpz_rhs_report rhs[3], dpz_err *err);
 
 /* Size expansion V a_ee^-1(x) - C0 = C2 x^2 + C3 x^3 + C4 x^4, x = k a_eq,
- * permittivities fixed at setup->eps_label. */
+ * permittivities fixed at setup->eps_label. With seven or more points the least-squares
+ * fit also carries x^5 and x^6 columns (not reported) that absorb the truncation of the
+ * series, so that it does not leak into C3. */
 typedef struct dpz_expansion {
     double complex C0[3][3], C2[3][3], C3[3][3], C4[3][3]; /* dimensionless */
     double fit_residual;    /* max over elements of the relative least-squares residual */

@@ -59,7 +59,8 @@ dpz_status dpz_material_create_table_file(dpz_material **out, const char *path,
 void dpz_material_destroy(dpz_material *mat); /* NULL is a no-op */
 
 /* Permittivity (relative to vacuum) at vacuum wavelength lambda0_m (metres, > 0).
- * DPZ_ERANGE for a wavelength outside a table's range (no extrapolation). */
+ * DPZ_ERANGE for a wavelength outside a table's range (no extrapolation) and for a
+ * permittivity that overflows (finite parameters, e.g. n = 1e200, whose square is not). */
 dpz_status dpz_material_eps(const dpz_material *mat, double lambda0_m, double complex *eps,
                             dpz_err *err);
 

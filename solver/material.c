@@ -390,6 +390,22 @@ static double complex drude_eps(const dpz_drude_params *p, double E)
     return eps;
 }
 
+/* Stores e in *eps when finite. A model or table can hold finite parameters whose
+ * permittivity overflows (n = 1e200 squares to inf; a Drude plasma energy of 1e300 eV
+ * likewise): refuse rather than hand out inf or nan, leaving *eps untouched. */
+static dpz_status eps_finite(const dpz_material *mat, double lambda0_m, double complex e,
+                             double complex *eps, dpz_err *err)
+{
+    if (isfinite(creal(e)) && isfinite(cimag(e))) {
+        *eps = e;
+        return DPZ_OK;
+    }
+    return dpz_err_set(err, DPZ_ERANGE,
+                       "material %s: the permittivity at %.6g nm is not finite (the "
+                       "model's or table's values are too large)",
+                       mat->kind == MAT_TABLE ? mat->name : "model", lambda0_m * 1e9);
+}
+
 dpz_status dpz_material_eps(const dpz_material *mat, double lambda0_m,
                             double complex *eps, dpz_err *err)
 {
@@ -403,8 +419,8 @@ dpz_status dpz_material_eps(const dpz_material *mat, double lambda0_m,
         *eps = mat->eps;
         return DPZ_OK;
     case MAT_DRUDE:
-        *eps = drude_eps(&mat->drude, HC_EV_NM / (lambda0_m * 1e9));
-        return DPZ_OK;
+        return eps_finite(mat, lambda0_m,
+                          drude_eps(&mat->drude, HC_EV_NM / (lambda0_m * 1e9)), eps, err);
     case MAT_TABLE: {
         size_t n = mat->rows;
         if (lambda0_m < mat->wl[0] || lambda0_m > mat->wl[n - 1])
@@ -426,8 +442,9 @@ dpz_status dpz_material_eps(const dpz_material *mat, double lambda0_m,
         double a = mat->v1[lo] + t * (mat->v1[hi] - mat->v1[lo]);
         double b = mat->v2[lo] + t * (mat->v2[hi] - mat->v2[lo]);
         /* eps = (n + i k)^2 for exp(-i omega t) (Bohren & Huffman 1983, sec. 2.5). */
-        *eps = mat->is_nk ? CMPLX(a * a - b * b, 2 * a * b) : CMPLX(a, b);
-        return DPZ_OK;
+        return eps_finite(mat, lambda0_m,
+                          mat->is_nk ? CMPLX(a * a - b * b, 2 * a * b) : CMPLX(a, b), eps,
+                          err);
     }
     }
     return dpz_err_set(err, DPZ_EINVAL, "material: unknown kind");

@@ -159,6 +159,33 @@ static void test_material_table_refuses_out_of_range(void **state)
     dpz_material_destroy(m);
 }
 
+/* Finite table values and model parameters whose permittivity overflows are refused at
+ * evaluation (found by fuzzing: k = 3e174 gave eps = -inf with DPZ_OK). */
+static void test_material_eps_overflow_refused(void **state)
+{
+    (void)state;
+    const char *csv = "wavelength_nm,n,k\n400,1.5,0\n500,1.5,3.3e174\n";
+    dpz_material *m = NULL;
+    dpz_err err;
+    assert_int_equal(dpz_material_create_table(&m, csv, strlen(csv), "o.csv", &err),
+                     DPZ_OK);
+    double complex eps = 2.385;
+    assert_int_equal(dpz_material_eps(m, 401.0 * NM, &eps, &err), DPZ_ERANGE);
+    assert_non_null(strstr(err.msg, "o.csv"));
+    assert_non_null(strstr(err.msg, "not finite"));
+    assert_true(eps == 2.385); /* untouched on failure */
+    /* At 400 nm exactly the row's own finite value is used: 1.5^2 = 2.25. */
+    assert_int_equal(dpz_material_eps(m, 400.0 * NM, &eps, &err), DPZ_OK);
+    assert_close(creal(eps), 2.25, 4 * DBL_EPSILON);
+    dpz_material_destroy(m);
+    dpz_drude_params p = {.eps_inf = 1.0, .plasma_ev = 1e300, .damping_ev = 0.1};
+    assert_int_equal(dpz_material_create_drude(&m, &p, &err), DPZ_OK);
+    eps = 2.385;
+    assert_int_equal(dpz_material_eps(m, 633.0 * NM, &eps, &err), DPZ_ERANGE);
+    assert_true(eps == 2.385);
+    dpz_material_destroy(m);
+}
+
 /* Each malformed table is refused with the file name, the line and what is wrong. */
 static void expect_bad(const char *csv, int line, const char *what)
 {
@@ -255,6 +282,7 @@ int main(void)
         cmocka_unit_test(test_material_const),
         cmocka_unit_test(test_material_table_interpolates),
         cmocka_unit_test(test_material_table_refuses_out_of_range),
+        cmocka_unit_test(test_material_eps_overflow_refused),
         cmocka_unit_test(test_material_table_rejects_bad_input),
         cmocka_unit_test(test_material_table_file),
         cmocka_unit_test(test_material_allocation_failure),

@@ -166,6 +166,17 @@ void cli_refine_free(cli_refine *r);
  * oscillates with the spacing and would otherwise dominate the fit. */
 int cli_extrapolate(size_t n, const double *d, const double complex *v, size_t m,
                     double complex *out, double complex *err);
+/* The same for a refinement: divides each level's m values (v[k * m + e]) by that
+ * level's voxel volume, extrapolates with cli_extrapolate and multiplies value and error
+ * by r->v_true. Used by static, tensor and sweep alike. Prints the message on failure. */
+int cli_refine_extrapolate(const cli_refine *r, const double complex *v, size_t m,
+                           double complex *out, double complex *err);
+/* What the extrapolated result describes: the true shape or mesh (re-voxelized levels)
+ * or the staircase body of a plain voxel set (split levels). */
+const char *cli_refine_belongs_to(const cli_refine *r);
+/* The levels of a refinement as JSON: levels, how, spacings_m, voxels, volumes_m3,
+ * true_volume_m3, true_volume_from, result_belongs_to, method. */
+cJSON *cli_refine_json(const cli_refine *r);
 
 /* ---- materials */
 typedef struct cli_materials {

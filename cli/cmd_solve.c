@@ -188,62 +188,6 @@ static void grid_table(const dpz_grid *g, double host)
 
 /* ---- static
  * ------------------------------------------------------------------------------ */
-/* Per-level grid facts of a refinement. */
-static cJSON *refine_json(const cli_refine *r)
-{
-    cJSON *o = cJSON_CreateObject();
-    double vol[CLI_REFINE_MAX], vox[CLI_REFINE_MAX];
-    for (size_t k = 0; k < r->n; k++) {
-        vol[k] = dpz_grid_volume(r->grid[k]);
-        vox[k] = (double)r->grid[k]->n_occ;
-    }
-    cli_json_add_number(o, "levels", (double)r->n);
-    cJSON_AddStringToObject(o, "how", r->how);
-    cJSON_AddItemToObject(o, "spacings_m", cli_json_doubles(r->d, r->n));
-    cJSON_AddItemToObject(o, "voxels", cli_json_doubles(vox, r->n));
-    cJSON_AddItemToObject(o, "volumes_m3", cli_json_doubles(vol, r->n));
-    cli_json_add_number(o, "true_volume_m3", r->v_true);
-    cJSON_AddStringToObject(o, "true_volume_from", r->v_source);
-    /* Split voxels describe the same staircase body at every level, so the limit is that
-     * body's continuum response, not the response of a smooth shape it approximates. */
-    cJSON_AddStringToObject(o, "result_belongs_to",
-                            strcmp(r->how, "split voxels") == 0
-                                ? "the staircase body of the voxel set itself"
-                                : "the true shape or mesh, re-voxelized");
-    cJSON_AddStringToObject(
-        o, "method",
-        "value/V of each level fitted by least squares with a line in the spacing, "
-        "extrapolated to zero spacing, times the true volume; error = the larger of the "
-        "extrapolation step from the finest level and (spread between the linear and "
-        "quadratic fits + 2 standard errors), plus the largest residual (2 levels: the "
-        "extrapolation step)");
-    return o;
-}
-
-/* Extrapolates m values per level (level-major) after dividing each level by its voxel
- * volume, and scales back by the true volume. */
-static int extrapolate_normalized(const cli_refine *r, const double complex *v, size_t m,
-                                  double complex *out, double complex *err)
-{
-    double complex *w = calloc(r->n * m, sizeof *w);
-    if (!w)
-        return cli_fail("out of memory"), CLI_FAILED;
-    for (size_t k = 0; k < r->n; k++) {
-        double vk = dpz_grid_volume(r->grid[k]);
-        for (size_t e = 0; e < m; e++)
-            w[k * m + e] = v[k * m + e] / vk;
-    }
-    int rc = cli_extrapolate(r->n, r->d, w, m, out, err);
-    free(w);
-    if (rc != CLI_OK)
-        return rc;
-    for (size_t e = 0; e < m; e++) {
-        out[e] *= r->v_true;
-        err[e] *= r->v_true;
-    }
-    return CLI_OK;
-}
-
 static cJSON *error_tensor_json(const double complex *err)
 {
     return cli_json_tensor3_flat(err);
@@ -316,7 +260,7 @@ static int run_static(const cli_args *a)
         fill_nan(&chi[0][0], 9);
         fill_nan(&chi_err[0][0], 9);
     } else if (levels) {
-        rc = extrapolate_normalized(&ref, &chis[0][0][0], 9, &chi[0][0], &chi_err[0][0]);
+        rc = cli_refine_extrapolate(&ref, &chis[0][0][0], 9, &chi[0][0], &chi_err[0][0]);
     } else {
         memcpy(chi, chis[0], sizeof chi);
     }
@@ -329,7 +273,7 @@ static int run_static(const cli_args *a)
     double V = levels ? ref.v_true : dpz_grid_volume(j.grid);
     cJSON *rj = NULL;
     if (levels)
-        rj = refine_json(&ref);
+        rj = cli_refine_json(&ref);
     if (cli_flag(a, "--json")) {
         cJSON *o = cJSON_CreateObject();
         cJSON_AddItemToObject(o, "chi", cli_json_tensor3(chi));
@@ -553,7 +497,7 @@ static int run_tensor(const cli_args *a)
         if (vals) {
             for (size_t l = 0; l < nl; l++)
                 memcpy(vals + 36 * l, &ts[l].A[0][0], 36 * sizeof *vals);
-            rc = extrapolate_normalized(&ref, vals, 36, &A[0][0], &A_err[0][0]);
+            rc = cli_refine_extrapolate(&ref, vals, 36, &A[0][0], &A_err[0][0]);
             free(vals);
         }
         if (!vals || rc != CLI_OK) {
@@ -589,7 +533,7 @@ static int run_tensor(const cli_args *a)
     double V = levels ? ref.v_true : dpz_grid_volume(j.grid);
     cJSON *rj = NULL;
     if (levels)
-        rj = refine_json(&ref);
+        rj = cli_refine_json(&ref);
     char v1[256], v2[256], v3[256], v4[256];
     /* The finest lattice decides what the result can resolve. */
     double mkd = lattice_kd(levels ? ref.grid[nl - 1] : j.grid, j.setup.eps_label, lam);

@@ -9,6 +9,7 @@
 #include "cli_int.h"
 
 #include <math.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "dpz_refine.h"
@@ -126,5 +127,64 @@ int cli_extrapolate(size_t n, const double *d, const double complex *v, size_t m
     dpz_err e;
     if (dpz_refine_extrapolate(n, d, v, m, DPZ_REFINE_LINEAR, out, err, &e) != DPZ_OK)
         return cli_fail_err("refine", &e);
+    return CLI_OK;
+}
+
+const char *cli_refine_belongs_to(const cli_refine *r)
+{
+    /* Split voxels describe the same staircase body at every level, so the limit is that
+     * body's continuum response, not the response of a smooth shape it approximates. */
+    return strcmp(r->how, "split voxels") == 0
+               ? "the staircase body of the voxel set itself"
+               : "the true shape or mesh, re-voxelized";
+}
+
+cJSON *cli_refine_json(const cli_refine *r)
+{
+    cJSON *o = cJSON_CreateObject();
+    if (!o)
+        return NULL;
+    double vol[CLI_REFINE_MAX], vox[CLI_REFINE_MAX];
+    for (size_t k = 0; k < r->n; k++) {
+        vol[k] = dpz_grid_volume(r->grid[k]);
+        vox[k] = (double)r->grid[k]->n_occ;
+    }
+    cli_json_add_number(o, "levels", (double)r->n);
+    cJSON_AddStringToObject(o, "how", r->how);
+    cJSON_AddItemToObject(o, "spacings_m", cli_json_doubles(r->d, r->n));
+    cJSON_AddItemToObject(o, "voxels", cli_json_doubles(vox, r->n));
+    cJSON_AddItemToObject(o, "volumes_m3", cli_json_doubles(vol, r->n));
+    cli_json_add_number(o, "true_volume_m3", r->v_true);
+    cJSON_AddStringToObject(o, "true_volume_from", r->v_source);
+    cJSON_AddStringToObject(o, "result_belongs_to", cli_refine_belongs_to(r));
+    cJSON_AddStringToObject(
+        o, "method",
+        "value/V of each level fitted by least squares with a line in the spacing, "
+        "extrapolated to zero spacing, times the true volume; error = the larger of the "
+        "extrapolation step from the finest level and (spread between the linear and "
+        "quadratic fits + 2 standard errors), plus the largest residual (2 levels: the "
+        "extrapolation step)");
+    return o;
+}
+
+int cli_refine_extrapolate(const cli_refine *r, const double complex *v, size_t m,
+                           double complex *out, double complex *err)
+{
+    double complex *w = calloc(r->n * m, sizeof *w);
+    if (!w)
+        return cli_fail("out of memory"), CLI_FAILED;
+    for (size_t k = 0; k < r->n; k++) {
+        double vk = dpz_grid_volume(r->grid[k]);
+        for (size_t e = 0; e < m; e++)
+            w[k * m + e] = v[k * m + e] / vk;
+    }
+    int rc = cli_extrapolate(r->n, r->d, w, m, out, err);
+    free(w);
+    if (rc != CLI_OK)
+        return rc;
+    for (size_t e = 0; e < m; e++) {
+        out[e] *= r->v_true;
+        err[e] *= r->v_true;
+    }
     return CLI_OK;
 }

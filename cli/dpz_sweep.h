@@ -55,13 +55,21 @@ typedef struct dpz_sweep_result {
     double reciprocity, energy_balance, min_absorption_eig, dipole_validity;
     double min_fluct_eig_m3; /* m^3 */
     double seconds;          /* wall time of this wavelength, s */
+    /* With --refine: A holds the value extrapolated to zero spacing and A_err its error
+     * estimate per element (real and imaginary parts: the estimates for the real and
+     * imaginary parts of A), m^3; zero otherwise. */
+    double complex A_err[6][6];
 } dpz_sweep_result;
 
 /* ---- the three CSV tables --------------------------------------------------------- */
 typedef enum {
     DPZ_TABLE_ALPHA = 0,
     DPZ_TABLE_XSEC = 1,
-    DPZ_TABLE_DIAG = 2
+    DPZ_TABLE_DIAG = 2,
+    /* alpha.csv of a sweep with --refine: the columns of DPZ_TABLE_ALPHA plus err_re,
+     * err_im after im. Not counted in DPZ_TABLE_COUNT: a sweep writes it in place of
+     * DPZ_TABLE_ALPHA. */
+    DPZ_TABLE_ALPHA_REFINED = 3
 } dpz_table_kind;
 #define DPZ_TABLE_COUNT 3
 #define DPZ_SWEEP_ALPHA_ROWS 36 /* 4 blocks x 3 rows x 3 columns per wavelength */
@@ -132,9 +140,10 @@ dpz_status dpz_sweep_write_atomic_parts(const char *dir, const char *name,
 
 /* ---- summary.json ----------------------------------------------------------------- */
 /* Compares the inputs recorded by two summary.json texts: `version`, `input` (without
- * `path`), `materials` (without paths), `options`, `wavelengths_m` and, when
- * `with_shard`, `shard`. Returns NULL when they are equal, else the name of the first
- * field that differs (a static string). Either text failing to parse gives "summary". */
+ * `path`), `materials` (without paths), `options`, `wavelengths_m`, `refine` (absent in
+ * both is equal: runs without --refine) and, when `with_shard`, `shard`. Returns NULL
+ * when they are equal, else the name of the first field that differs (a static string).
+ * Either text failing to parse gives "summary". */
 const char *dpz_sweep_inputs_differ(const char *summary_a, const char *summary_b,
                                     int with_shard);
 

@@ -37,14 +37,17 @@ size_t dpz_sweep_shard_position(size_t j, size_t index, size_t count)
 }
 
 /* ---- table layout ----------------------------------------------------------------- */
-static const char *const table_files[DPZ_TABLE_COUNT] = {
-    "alpha.csv", "cross_sections.csv", "diagnostics.csv"};
-static const char *const table_columns[DPZ_TABLE_COUNT] = {
+/* Indexed by dpz_table_kind: the three tables, then alpha.csv of a refined sweep. */
+#define N_KINDS (DPZ_TABLE_COUNT + 1)
+static const char *const table_files[N_KINDS] = {"alpha.csv", "cross_sections.csv",
+                                                 "diagnostics.csv", "alpha.csv"};
+static const char *const table_columns[N_KINDS] = {
     "wavelength_m,block,row,col,re,im,converged",
     "wavelength_m,ext,abs,sca,ext_dipole,abs_dipole,sca_dipole,rel_diff,converged",
     "wavelength_m,iterations,residual,converged,reciprocity,energy_balance,"
-    "min_absorption_eig,dipole_validity,min_fluct_eig_m3"};
-static const char *const table_notes[DPZ_TABLE_COUNT] = {
+    "min_absorption_eig,dipole_validity,min_fluct_eig_m3",
+    "wavelength_m,block,row,col,re,im,err_re,err_im,converged"};
+static const char *const table_notes[N_KINDS] = {
     "# 6x6 polarizability A = [[ee, em], [me, mm]] mapping [E; Z_h H] to "
     "[p/(eps0 eps_h); Z_h m]\n"
     "# wavelength_m: vacuum wavelength, m; row, col: 0 1 2 = x y z; re, im: m^3\n"
@@ -58,7 +61,14 @@ static const char *const table_notes[DPZ_TABLE_COUNT] = {
     "# iterations, residual: largest over the seven solves (six tensor right-hand sides, "
     "one plane wave)\n"
     "# reciprocity, energy_balance, dipole_validity: relative; min_absorption_eig: "
-    "dimensionless; min_fluct_eig_m3: m^3\n"};
+    "dimensionless; min_fluct_eig_m3: m^3\n",
+    "# 6x6 polarizability A = [[ee, em], [me, mm]] mapping [E; Z_h H] to "
+    "[p/(eps0 eps_h); Z_h m]\n"
+    "# wavelength_m: vacuum wavelength, m; row, col: 0 1 2 = x y z; re, im: m^3\n"
+    "# --refine: re, im extrapolated to zero spacing over the levels in summary.json "
+    "(refine); err_re, err_im: error estimates of re and im, m^3\n"
+    "# converged: 1 if every solve of the wavelength (every level) converged; else 0 and "
+    "values nan\n"};
 static const char *const block_names[4] = {"ee", "em", "me", "mm"};
 
 const char *dpz_sweep_table_file(dpz_table_kind kind)
@@ -136,10 +146,12 @@ size_t dpz_sweep_rows(dpz_table_kind kind, const dpz_sweep_result *r, char *buf,
     const char *conv = r->converged ? "1\n" : "0\n";
     switch (kind) {
     case DPZ_TABLE_ALPHA:
+    case DPZ_TABLE_ALPHA_REFINED:
         for (int b = 0; b < 4; b++)
             for (int i = 0; i < 3; i++)
                 for (int j = 0; j < 3; j++) {
                     double complex a = r->A[3 * (b / 2) + i][3 * (b % 2) + j];
+                    double complex ae = r->A_err[3 * (b / 2) + i][3 * (b % 2) + j];
                     sb_num(&s, r->lambda0_m, 1, ",");
                     sb_text(&s, block_names[b], 0, 0);
                     sb_text(&s, ",", 0, 0);
@@ -149,6 +161,10 @@ size_t dpz_sweep_rows(dpz_table_kind kind, const dpz_sweep_result *r, char *buf,
                     sb_text(&s, ",", 0, 0);
                     sb_num(&s, creal(a), r->have_tensor, ",");
                     sb_num(&s, cimag(a), r->have_tensor, ",");
+                    if (kind == DPZ_TABLE_ALPHA_REFINED) {
+                        sb_num(&s, creal(ae), r->have_tensor, ",");
+                        sb_num(&s, cimag(ae), r->have_tensor, ",");
+                    }
                     sb_text(&s, conv, 0, 0);
                 }
         break;
@@ -258,7 +274,8 @@ static int field_flag(const char *f, size_t n, int *out)
 dpz_status dpz_sweep_row_parse(dpz_table_kind kind, const char *line, size_t len,
                                dpz_sweep_result *r, int *elem, dpz_err *err)
 {
-    static const size_t n_expected[DPZ_TABLE_COUNT] = {7, 9, 9};
+    static const size_t n_expected[N_KINDS] = {7, 9, 9, 9};
+    int alpha = kind == DPZ_TABLE_ALPHA || kind == DPZ_TABLE_ALPHA_REFINED;
     const char *f[MAX_FIELDS];
     size_t fl[MAX_FIELDS];
     size_t n = split(line, len, f, fl);
@@ -268,10 +285,13 @@ dpz_status dpz_sweep_row_parse(dpz_table_kind kind, const char *line, size_t len
                            n_expected[kind]);
     if (field_number(f[0], fl[0], 0, &r->lambda0_m) != 0 || !(r->lambda0_m > 0))
         return dpz_err_set(err, DPZ_EFORMAT, "wavelength_m is not a positive number");
-    int conv_field = kind == DPZ_TABLE_ALPHA ? 6 : kind == DPZ_TABLE_XSEC ? 8 : 3;
+    int conv_field = kind == DPZ_TABLE_ALPHA           ? 6
+                     : kind == DPZ_TABLE_ALPHA_REFINED ? 8
+                     : kind == DPZ_TABLE_XSEC          ? 8
+                                                       : 3;
     if (field_flag(f[conv_field], fl[conv_field], &r->converged) != 0)
         return dpz_err_set(err, DPZ_EFORMAT, "converged is not 0 or 1");
-    if (kind == DPZ_TABLE_ALPHA) {
+    if (alpha) {
         int b = -1;
         for (int i = 0; i < 4; i++)
             if (field_is(f[1], fl[1], block_names[i]))
@@ -287,6 +307,13 @@ dpz_status dpz_sweep_row_parse(dpz_table_kind kind, const char *line, size_t len
             field_number(f[5], fl[5], 1, &im) != 0)
             return dpz_err_set(err, DPZ_EFORMAT, "re or im is not a number");
         r->A[3 * (b / 2) + (int)row][3 * (b % 2) + (int)col] = CMPLX(re, im);
+        if (kind == DPZ_TABLE_ALPHA_REFINED) {
+            double er, ei;
+            if (field_number(f[6], fl[6], 1, &er) != 0 ||
+                field_number(f[7], fl[7], 1, &ei) != 0)
+                return dpz_err_set(err, DPZ_EFORMAT, "err_re or err_im is not a number");
+            r->A_err[3 * (b / 2) + (int)row][3 * (b % 2) + (int)col] = CMPLX(er, ei);
+        }
         r->have_tensor = !isnan(re);
         if (elem)
             *elem = b * 9 + (int)row * 3 + (int)col;
@@ -359,7 +386,8 @@ dpz_status dpz_sweep_table_scan(dpz_table_kind kind, const char *name, const cha
     }
     out->head_end = pos;
     out->good_end = pos;
-    size_t per_group = kind == DPZ_TABLE_ALPHA ? DPZ_SWEEP_ALPHA_ROWS : 1;
+    int alpha = kind == DPZ_TABLE_ALPHA || kind == DPZ_TABLE_ALPHA_REFINED;
+    size_t per_group = alpha ? DPZ_SWEEP_ALPHA_ROWS : 1;
     size_t cap = 0;
     dpz_sweep_result r;
     dpz_table_group g = {0};
@@ -393,7 +421,7 @@ dpz_status dpz_sweep_table_scan(dpz_table_kind kind, const char *name, const cha
             mark_damage(out, line_no, what);
             break;
         }
-        if (kind == DPZ_TABLE_ALPHA && (size_t)elem != in_group) {
+        if (alpha && (size_t)elem != in_group) {
             snprintf(what, sizeof what,
                      "element %s[%d][%d] out of order (expected block/row/col %zu of 36)",
                      block_names[elem / 9], elem / 3 % 3, elem % 3, in_group + 1);
@@ -554,8 +582,10 @@ static void drop_paths(cJSON *o)
 const char *dpz_sweep_inputs_differ(const char *summary_a, const char *summary_b,
                                     int with_shard)
 {
-    static const char *const keys[] = {"version", "input",         "materials",
-                                       "options", "wavelengths_m", "shard"};
+    /* "refine" (--refine levels and spacings) is absent from runs without it; absent on
+     * both sides counts as equal. */
+    static const char *const keys[] = {"version",       "input",  "materials", "options",
+                                       "wavelengths_m", "refine", "shard"};
     cJSON *a = cJSON_Parse(summary_a), *b = cJSON_Parse(summary_b);
     const char *diff = NULL;
     if (!cJSON_IsObject(a) || !cJSON_IsObject(b)) {
@@ -567,6 +597,8 @@ const char *dpz_sweep_inputs_differ(const char *summary_a, const char *summary_b
             continue;
         cJSON *x = cJSON_GetObjectItemCaseSensitive(a, keys[i]);
         cJSON *y = cJSON_GetObjectItemCaseSensitive(b, keys[i]);
+        if (!x && !y && strcmp(keys[i], "refine") == 0)
+            continue;
         if (!x || !y) {
             diff = keys[i];
             break;

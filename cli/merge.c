@@ -73,8 +73,14 @@ static dpz_status shard_load(shard_in *s, dpz_err *err)
         if ((st = dpz_sweep_read_file(path, &s->table_buf[t], &s->table_len[t], err)) !=
             DPZ_OK)
             return st;
-        if ((st = dpz_sweep_table_scan((dpz_table_kind)t, path, s->table_buf[t],
-                                       s->table_len[t], &s->table[t], err)) != DPZ_OK)
+        /* A shard made with --refine has err_re, err_im in alpha.csv; mixing refined
+         * and unrefined shards is refused by the input comparison ("refine"). */
+        dpz_table_kind kind = (dpz_table_kind)t;
+        if (t == DPZ_TABLE_ALPHA &&
+            cJSON_GetObjectItemCaseSensitive(s->summary, "refine"))
+            kind = DPZ_TABLE_ALPHA_REFINED;
+        if ((st = dpz_sweep_table_scan(kind, path, s->table_buf[t], s->table_len[t],
+                                       &s->table[t], err)) != DPZ_OK)
             return st;
         const dpz_table *tb = &s->table[t];
         if (tb->damaged)

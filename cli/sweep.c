@@ -58,6 +58,12 @@ static const cli_opt sweep_opts[] = {
      "multipole origin, lengths in the grid frame (default: centroid of the occupied "
      "voxels)",
      0},
+    {"--refine", "N",
+     "solve every wavelength on N lattices (2 to 4; as for 'tensor --refine': a recorded "
+     "shape or mesh re-voxelized finer, a plain voxel set split into sub-voxels) and "
+     "write the tensor extrapolated to zero spacing with its error estimate (alpha.csv "
+     "gains err_re, err_im); cross sections and diagnostics come from the finest level",
+     0},
     {"--quiet", NULL, "no progress output on stderr", 0},
     {NULL, NULL, NULL, 0},
 };
@@ -272,6 +278,14 @@ static cJSON *summary_new(const dpz__sweep_ctx *c, const char *path, const char 
     cJSON_AddItemToObject(s, "materials", materials_json(c->a, c->grid));
     cJSON_AddItemToObject(s, "options", options_json(c));
     cJSON_AddItemToObject(s, "wavelengths_m", cli_json_doubles(c->wl, c->n_wl));
+    /* Only with --refine, so that other runs keep their summary as it was; resume and
+     * merge compare it like the other inputs. */
+    if (c->ref.n) {
+        cJSON *rj = cli_refine_json(&c->ref);
+        if (rj && !c->setup.has_origin)
+            cJSON_AddItemToObject(rj, "origin_m", cli_json_vec3(c->ref_origin_m));
+        cJSON_AddItemToObject(s, "refine", rj);
+    }
     cJSON *sh = cJSON_AddObjectToObject(s, "shard");
     if (sh) {
         cJSON_AddNumberToObject(sh, "index", (double)c->shard_index);
@@ -280,6 +294,12 @@ static cJSON *summary_new(const dpz__sweep_ctx *c, const char *path, const char 
     cJSON_AddArrayToObject(s, "results");
     cJSON_AddFalseToObject(s, "finished");
     return s;
+}
+
+/* The kind to write or scan table t as: alpha.csv of a refined run has err_re, err_im. */
+static dpz_table_kind table_kind(const dpz__sweep_ctx *c, int t)
+{
+    return t == DPZ_TABLE_ALPHA && c->ref.n ? DPZ_TABLE_ALPHA_REFINED : (dpz_table_kind)t;
 }
 
 /* ---- the output directory --------------------------------------------------------- */
@@ -553,7 +573,7 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
         char *buf = NULL;
         dpz_table tb;
         if (dpz_sweep_read_file(path, &buf, &len, &e) != DPZ_OK ||
-            dpz_sweep_table_scan((dpz_table_kind)t, path, buf, len, &tb, &e) != DPZ_OK) {
+            dpz_sweep_table_scan(table_kind(c, t), path, buf, len, &tb, &e) != DPZ_OK) {
             free(buf);
             cJSON_Delete(old);
             return cli_fail("sweep: cannot resume: %s", e.msg);
@@ -682,7 +702,23 @@ static int create_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, int existed)
     dpz_err e;
     char head[2048];
     for (int t = 0; t < DPZ_TABLE_COUNT; t++) {
-        size_t len = dpz_sweep_table_head((dpz_table_kind)t, head, sizeof head);
+        size_t len = dpz_sweep_table_head(table_kind(c, t), head, sizeof head);
+        if (len && c->ref.n && t != DPZ_TABLE_ALPHA) {
+            /* One more comment line before the column header of a refined run. */
+            static const char note[] =
+                "# --refine: values from the finest level (summary.json: refine); "
+                "converged = 1 only if every level converged\n";
+            size_t cols = strlen(dpz_sweep_table_columns((dpz_table_kind)t)) + 1;
+            if (len + sizeof note - 1 < sizeof head && cols <= len) {
+                memmove(head + len - cols + sizeof note - 1, head + len - cols, cols);
+                memcpy(head + len - cols, note, sizeof note - 1);
+                len += sizeof note - 1;
+            } else {
+                return cli_fail("sweep: the head of %s is too long",
+                                dpz_sweep_table_file((dpz_table_kind)t)),
+                       CLI_FAILED;
+            }
+        }
         if (dpz_sweep_write_atomic(o->dir, dpz_sweep_table_file((dpz_table_kind)t), head,
                                    len, &e) != DPZ_OK)
             return cli_fail_err(NULL, &e), CLI_FAILED;
@@ -711,24 +747,61 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
     if (cli_materials_eval(&c->mat, c->grid, r->lambda0_m, c->setup.eps_label) != CLI_OK)
         return dpz_err_set(err, DPZ_EINVAL, "sweep: no permittivity at %.17g m",
                            r->lambda0_m);
+    /* Without --refine one level: the given lattice. With it, every level from its own
+     * part of the warm vectors, all with one multipole origin; T ends up holding the
+     * finest level, which gives the diagnostics and the cross sections. */
+    size_t nl = c->ref.n ? c->ref.n : 1;
+    dpz_setup setup = c->setup;
+    if (c->ref.n) {
+        setup.has_origin = 1;
+        memcpy(setup.origin_m, c->ref_origin_m, sizeof setup.origin_m);
+    }
     dpz_tensor tensor, *T = &tensor;
-    memset(T, 0, sizeof *T);
-    dpz_status st = dpz_tensor_compute(&c->setup, r->lambda0_m, T, warm, err);
-    if (st != DPZ_OK && !is_noconv(st))
-        return st;
-    r->have_tensor = st == DPZ_OK && T->converged;
-    for (int i = 0; i < 6 && r->status == DPZ_OK; i++)
-        r->status = T->rhs[i].status;
-    if (r->status == DPZ_OK && !r->have_tensor)
-        r->status = st != DPZ_OK ? st : DPZ_ENOCONV;
-    for (int i = 0; i < 6; i++) {
-        if (T->rhs[i].iterations > r->iterations)
-            r->iterations = T->rhs[i].iterations;
-        if (T->rhs[i].residual > r->residual || isnan(T->rhs[i].residual))
-            r->residual = T->rhs[i].residual;
+    double complex vals[CLI_REFINE_MAX * 36];
+    int all_conv = 1;
+    dpz_status st = DPZ_OK;
+    for (size_t l = 0; l < nl; l++) {
+        double complex *wl[6];
+        for (int i = 0; i < 6; i++)
+            wl[i] = warm ? warm[i] + c->warm_off[l] : NULL;
+        if (c->ref.n)
+            setup.grid = c->ref.grid[l];
+        memset(T, 0, sizeof *T);
+        st = dpz_tensor_compute(&setup, r->lambda0_m, T, warm ? wl : NULL, err);
+        if (st != DPZ_OK && !is_noconv(st))
+            return st;
+        int conv = st == DPZ_OK && T->converged;
+        for (int i = 0; i < 6 && r->status == DPZ_OK; i++)
+            r->status = T->rhs[i].status;
+        if (r->status == DPZ_OK && !conv)
+            r->status = st != DPZ_OK ? st : DPZ_ENOCONV;
+        for (int i = 0; i < 6; i++) {
+            if (T->rhs[i].iterations > r->iterations)
+                r->iterations = T->rhs[i].iterations;
+            if (T->rhs[i].residual > r->residual || isnan(T->rhs[i].residual))
+                r->residual = T->rhs[i].residual;
+        }
+        if (conv) {
+            memcpy(vals + 36 * l, &T->A[0][0], 36 * sizeof *vals);
+        } else {
+            all_conv = 0;
+            /* A non-converged iterate is no guess for the next wavelength. */
+            for (int i = 0; warm && i < 6; i++)
+                memset(wl[i], 0, 3 * setup.grid->n_occ * sizeof(double complex));
+        }
+    }
+    r->have_tensor = all_conv;
+    if (r->have_tensor && c->ref.n) {
+        if (cli_refine_extrapolate(&c->ref, vals, 36, &r->A[0][0], &r->A_err[0][0]) !=
+            CLI_OK)
+            return dpz_err_set(err, DPZ_EINVAL,
+                               "sweep: the extrapolation to zero spacing failed at "
+                               "%.9g nm",
+                               r->lambda0_m * 1e9);
+    } else if (r->have_tensor) {
+        memcpy(r->A, T->A, sizeof r->A);
     }
     if (r->have_tensor) {
-        memcpy(r->A, T->A, sizeof r->A);
         r->reciprocity = T->reciprocity;
         r->energy_balance = T->energy_balance;
         r->min_absorption_eig = T->absorption_eig[0];
@@ -736,7 +809,7 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
         r->min_fluct_eig_m3 = T->fluct_eig[0];
         dpz_xsec xs;
         memset(&xs, 0, sizeof xs);
-        st = dpz_xsec_compute(&c->setup, r->lambda0_m, c->khat, c->e0, T, &xs, err);
+        st = dpz_xsec_compute(&setup, r->lambda0_m, c->khat, c->e0, T, &xs, err);
         if (st != DPZ_OK && !is_noconv(st))
             return st;
         r->have_xsec = st == DPZ_OK;
@@ -757,10 +830,6 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
         } else {
             r->ext_dip = r->abs_dip = r->sca_dip = r->rel_diff = NAN;
         }
-    } else if (warm) {
-        /* A non-converged iterate is no guess for the next wavelength. */
-        for (int i = 0; i < 6; i++)
-            memset(warm[i], 0, c->n_vec * sizeof(double complex));
     }
     r->converged = r->have_tensor && r->have_xsec;
     dpz_err_clear(err);
@@ -833,7 +902,7 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
     char buf[DPZ_SWEEP_ROWS_MAX], path[4096];
     dpz_status st;
     for (int t = 0; t < DPZ_TABLE_COUNT; t++) {
-        size_t len = dpz_sweep_rows((dpz_table_kind)t, r, buf, sizeof buf);
+        size_t len = dpz_sweep_rows(table_kind(c, t), r, buf, sizeof buf);
         snprintf(path, sizeof path, "%s/%s", o->dir,
                  dpz_sweep_table_file((dpz_table_kind)t));
         if (len == 0)
@@ -878,6 +947,7 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
  * ---------------------------------------------------------------------------- */
 static void ctx_free(dpz__sweep_ctx *c)
 {
+    cli_refine_free(&c->ref);
     cli_materials_free(&c->mat);
     dpz_grid_destroy(c->grid);
     free(c->wl);
@@ -924,9 +994,16 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     c->setup.host_index = c->mat.host_index;
     if ((rc = cli_setup_options(a, &c->setup)) != CLI_OK)
         return rc;
+    size_t levels = 0;
+    if ((rc = cli_refine_option(a, &levels)) != CLI_OK)
+        return rc;
+    if (levels && (rc = cli_refine_build(a, c->grid, levels, &c->ref)) != CLI_OK)
+        return rc;
     /* The memory estimate (operator, solver vectors, the six warm-start solutions)
-     * against --max-memory or the memory available, before allocating any of it. */
-    if ((rc = cli_limits_check(a, c->grid, &c->setup, CLI_WORK_SWEEP)) != CLI_OK)
+     * against --max-memory or the memory available, before allocating any of it; with
+     * --refine for the finest level, the largest. */
+    if ((rc = cli_limits_check(a, levels ? c->ref.grid[levels - 1] : c->grid, &c->setup,
+                               CLI_WORK_SWEEP)) != CLI_OK)
         return rc;
     c->khat[0] = c->khat[1] = 0.0;
     c->khat[2] = 1.0;
@@ -936,6 +1013,19 @@ static int validate(const cli_args *a, dpz__sweep_ctx *c, cli_src_format *fmt)
     if (inc && (rc = parse_incidence(inc, c->khat, c->e0)) != CLI_OK)
         return rc;
     c->n_vec = 3 * c->grid->n_occ;
+    if (levels) {
+        /* One multipole origin for every level: the user's, else the centroid of the
+         * finest voxel set (as tensor --refine does). */
+        if (c->setup.has_origin)
+            memcpy(c->ref_origin_m, c->setup.origin_m, sizeof c->ref_origin_m);
+        else
+            dpz_grid_centroid(c->ref.grid[levels - 1], c->ref_origin_m);
+        c->n_vec = 0;
+        for (size_t l = 0; l < levels; l++) {
+            c->warm_off[l] = c->n_vec;
+            c->n_vec += 3 * c->ref.grid[l]->n_occ;
+        }
+    }
     return CLI_OK;
 }
 

@@ -27,12 +27,22 @@ typedef struct dpz__sweep_ctx {
     size_t shard_index, shard_count, shard_size;
     double khat[3];       /* incidence direction, unit vector */
     double complex e0[3]; /* incident polarization (cross sections per |E0|^2) */
-    size_t n_vec;         /* 3 * n_occ: length of one solution vector */
+    size_t n_vec;         /* 3 * n_occ: length of one solution vector (with --refine:
+                             the sum over the levels, coarse to fine) */
+    /* --refine: the levels (ref.n == 0 without it), where level l's part of each warm
+     * vector starts (warm_off[l], entries), and the multipole origin shared by every
+     * level (the user's, else the centroid of the finest level's voxels). */
+    cli_refine ref;
+    size_t warm_off[CLI_REFINE_MAX];
+    double ref_origin_m[3];
 } dpz__sweep_ctx;
 
 /* Computes the wavelength at `position` of the full list: the 6x6 tensor (warm-started
  * from `warm`, six vectors of n_vec entries, which receive the solutions, or zeros when
- * the tensor solves did not converge) and the plane-wave cross sections. A solve that
+ * the tensor solves did not converge) and the plane-wave cross sections. With --refine
+ * every level is solved from its own part of the warm vectors, the tensor is
+ * extrapolated (cli_refine_extrapolate) and the cross sections and diagnostics come from
+ * the finest level. A solve that
  * does not converge is not an error: r->converged = 0. Other failures (out of memory,
  * FFTW, LAPACK) return their status with the message in err. */
 dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex *warm[6],

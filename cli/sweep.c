@@ -333,7 +333,9 @@ static dpz_status write_summary(dpz__sweep_out *o, dpz_err *err)
 /* Restart state: the six solution vectors after shard position `j`, in
  * restart.<j mod 2>.bin (two files, so that the one matching the last position recorded
  * in summary.json is never being replaced). Layout: 8 bytes "DPZWARM1", uint64 position
- * (full list), uint64 n_vec, double lambda0_m, then 6 * n_vec complex doubles. */
+ * (full list), uint64 n_vec, double lambda0_m, then 6 * n_vec complex doubles. With
+ * --refine n_vec spans every level (coarse to fine, c->warm_off), so each level's
+ * warm-start chain survives a kill as well. */
 static const char warm_magic[8] = {'D', 'P', 'Z', 'W', 'A', 'R', 'M', '1'};
 
 static dpz_status write_restart(const char *dir, size_t j, uint64_t position,

@@ -1,12 +1,16 @@
 #!/usr/bin/env bash
 # e2e_sweep_refine.sh: `sweep --refine N` solves every wavelength on the same lattices as
-# `tensor --refine N` and writes the same extrapolated tensor and error estimate:
+# `tensor --refine N` and writes the same extrapolated tensor and error estimate (the
+# extrapolation itself is checked against Mie theory by ref_accuracy_refine.py; here the
+# sweep is checked against the tensor command):
 #  - alpha.csv gains err_re, err_im only with --refine (a run without it keeps its header);
 #  - at every wavelength alpha and error equal `tensor --refine 2 --json` to the solver
 #    tolerance (the sweep warm-starts each level from the previous wavelength, tensor
 #    starts from zero; both stop at a relative residual of 1e-8), and the cross sections
 #    equal those of the finest level (`tensor --refine 2 --cross-sections`);
-#  - summary.json records the levels, spacings and what the result belongs to;
+#  - summary.json records the levels, spacings and what the result belongs to (the true
+#    shape for a recorded shape, the staircase body for a plain voxel set);
+#  - a bad --refine is refused with exit 2 and no output;
 #  - --resume refuses a directory made with another --refine (exit 2), and a refined run
 #    killed and resumed writes tables byte-identical to an uninterrupted one (the restart
 #    state holds every level's warm-start vectors);
@@ -110,6 +114,46 @@ assert "refine" not in json.load(open(f"{tmp}/P/summary.json"))
 print("  largest difference to tensor --refine (relative to the block): alpha %.2e, "
       "error %.2e, cross sections %.2e" % (worst["alpha"], worst["error"], worst["ext"]))
 PY
+
+# A plain voxel set (the same voxels without the shape record in the VTK title line) is
+# refined by splitting voxels: the result belongs to its staircase body, and says so.
+"$py" - "$tmp/s.vtk" "$tmp/p.vtk" <<'PY' || fail "cannot write the plain voxel file"
+import sys
+b = open(sys.argv[1], "rb").read()
+i = b.index(b"\n") + 1
+j = b.index(b"\n", i)
+assert b[i:j].startswith(b"dipolize-shape"), b[i:j]
+open(sys.argv[2], "wb").write(b[:i] + b"plain voxel set" + b[j:])
+PY
+"$bin" sweep "$tmp/p.vtk" "${common[@]}" --wavelengths 320nm --refine 2 -o "$tmp/V" ||
+    fail "refined sweep of a plain voxel set (exit $?)"
+"$bin" tensor "$tmp/p.vtk" "${common[@]}" --wavelength 320nm --refine 2 --json \
+    >"$tmp/tv.json" || fail "tensor --refine 2 of the plain voxel set"
+"$py" - "$tmp" <<'PY' || fail "plain voxel set: refine record or values wrong"
+import csv, json, sys
+tmp = sys.argv[1]
+s = json.load(open(f"{tmp}/V/summary.json"))["refine"]
+assert s["how"] == "split voxels", s
+assert s["result_belongs_to"] == "the staircase body of the voxel set itself", s
+assert s["voxels"] == [280, 280 * 8], s
+t = json.load(open(f"{tmp}/tv.json"))
+rows = [r for r in csv.reader(l for l in open(f"{tmp}/V/alpha.csv") if l[0] != "#")][1:]
+ee = [r for r in rows if r[1] == "ee" and r[2] == r[3]]
+for r in ee:  # one cold-started wavelength: the same solves as tensor, to the tolerance
+    i = int(r[2])
+    for part, k in ((0, 4), (1, 6)):
+        ref = t["alpha" if k == 4 else "error"]["ee"][i][i][0]
+        assert abs(float(r[k]) - ref) <= 1e-6 * abs(t["alpha"]["ee"][i][i][0]), (r, ref)
+PY
+
+# A bad --refine is refused before anything is written.
+for n in 1 5 x; do
+    "$bin" "${args[@]}" --refine "$n" -o "$tmp/bad" 2>"$tmp/err"
+    rc=$?
+    [ "$rc" = 2 ] || fail "--refine $n: exit $rc"
+    [ ! -e "$tmp/bad" ] || fail "--refine $n left $tmp/bad"
+    [ "$(wc -l <"$tmp/err")" = 1 ] || fail "--refine $n: not one message: $(cat "$tmp/err")"
+done
 
 # --resume with another --refine (or none) is refused, and the directory is untouched.
 cp -r "$tmp/A" "$tmp/A0"

@@ -61,6 +61,16 @@ dpz_status dpz_operator_inv_alpha(const dpz_grid *grid,
                     "(zero polarizability)",
                     lab, creal(eps), cimag(eps));
             per_label[lab] = dpz_dipole_inv_alpha(model, er, k, grid->d);
+            /* eps_rel = -2 is the Clausius-Mossotti pole of a cubic voxel (alpha_CM =
+             * 3 d^3 (eps-1)/(eps+2), Purcell & Pennypacker 1973): in the static problem
+             * (k = 0) nothing regularizes it, and the system is singular. */
+            if (per_label[lab] == 0.0)
+                return dpz_err_set(
+                    err, DPZ_EINVAL,
+                    "operator: label %u: permittivity %g%+gi is -2 times the host's, the "
+                    "pole of the Clausius-Mossotti voxel polarizability (infinite "
+                    "polarizability, singular static system)",
+                    lab, creal(eps), cimag(eps));
             seen[lab] = 1;
         }
         inv_alpha[v] = per_label[lab];

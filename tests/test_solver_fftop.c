@@ -354,6 +354,15 @@ static void test_fftop_rejects_bad_input(void **state)
     eps[2] = CMPLX(INFINITY, 0.0);
     assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, 1e7, DPZ_DIPOLE_CMRR, ia, &err),
                      DPZ_EINVAL);
+    /* eps_rel = -2: the Clausius-Mossotti pole (Purcell & Pennypacker 1973) makes the
+     * static system singular; refused by name. At k > 0 the radiative reaction keeps
+     * 1/alpha finite and nonzero, so the same material is accepted there. */
+    eps[2] = -2.0 * 1.33 * 1.33;
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, 0.0, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "pole"));
+    assert_int_equal(dpz_operator_inv_alpha(g, eps, 1.33, 1e7, DPZ_DIPOLE_CMRR, ia, &err),
+                     DPZ_OK);
     free(ia);
     dpz_grid_destroy(g);
 }

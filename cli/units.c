@@ -12,6 +12,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "dpz_fileio.h"
+
 /* Longest single value we accept; longer text is refused rather than truncated. */
 #define UNITS_TOKEN_MAX 256
 
@@ -579,47 +581,13 @@ dpz_status dpz_units_wavelength_text(const char *opt, const char *name, const ch
 static dpz_status wavelength_file(const char *opt, const char *path, size_t max_points,
                                   double **out, size_t *n, dpz_err *err)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return dpz_err_set(err, DPZ_EIO, "%s: cannot open wavelength file %s: %s",
-                           nz(opt), path, strerror(errno));
-    size_t cap = 4096, len = 0;
-    char *buf = dpz__malloc(cap);
-    if (!buf) {
-        fclose(f);
-        return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
-    }
-    for (;;) {
-        if (len == cap) {
-            if (cap > ((size_t)64 << 20)) {
-                free(buf);
-                fclose(f);
-                return dpz_err_set(err, DPZ_ELIMIT, "%s: %s is larger than 64 MiB",
-                                   nz(opt), path);
-            }
-            char *nb = dpz__realloc(buf, 2 * cap);
-            if (!nb) {
-                free(buf);
-                fclose(f);
-                return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", nz(opt));
-            }
-            buf = nb;
-            cap *= 2;
-        }
-        size_t got = fread(buf + len, 1, cap - len, f);
-        len += got;
-        if (got == 0)
-            break;
-    }
-    int bad = ferror(f);
-    fclose(f);
-    if (bad) {
-        free(buf);
-        return dpz_err_set(err, DPZ_EIO, "%s: error reading %s", nz(opt), path);
-    }
-    dpz_status s =
-        dpz_units_wavelength_text(opt, path, buf, len, max_points, out, n, err);
-    free(buf);
+    char *buf = NULL;
+    size_t len = 0;
+    dpz_status s = dpz_file_read_all(path, nz(opt), (size_t)64 << 20, &buf, &len, err);
+    if (s != DPZ_OK)
+        return s;
+    s = dpz_units_wavelength_text(opt, path, buf, len, max_points, out, n, err);
+    dpz__free(buf);
     return s;
 }
 

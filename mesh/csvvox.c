@@ -9,6 +9,7 @@
 #include <string.h>
 #include <strings.h>
 
+#include "dpz_fileio.h"
 #include "mesh_int.h"
 
 #define WHO "csv reader"
@@ -221,7 +222,7 @@ dpz_status dpz_csvvox_read_file(dpz_grid **out, const char *path, double spacing
         *out = NULL;
     char *buf;
     size_t len;
-    dpz_status st = dpz__read_whole_file(path, WHO, &buf, &len, err);
+    dpz_status st = dpz_file_read_all(path, WHO, 0, &buf, &len, err);
     if (st != DPZ_OK)
         return st;
     st = dpz_csvvox_read(out, buf, len, path, spacing_m, max_cells, err);
@@ -244,7 +245,7 @@ dpz_status dpz_voxfile_read(dpz_grid **out, const char *path, double spacing_m,
         return dpz_err_set(err, DPZ_EINVAL, "voxel file: NULL argument");
     char *buf;
     size_t len;
-    dpz_status st = dpz__read_whole_file(path, "voxel file", &buf, &len, err);
+    dpz_status st = dpz_file_read_all(path, "voxel file", 0, &buf, &len, err);
     if (st != DPZ_OK)
         return st;
     int spacing_given = spacing_m > 0.0;

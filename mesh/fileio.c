@@ -1,13 +1,14 @@
-/* fileio.c: helpers shared by the file readers of mesh/: whole-file reads and names for
- * messages. */
+/* fileio.c: whole-file reads (dpz_fileio.h) and names of paths for messages. */
+#include "dpz_fileio.h"
+
 #include "mesh_int.h"
 
 #include <errno.h>
 #include <stdio.h>
 #include <string.h>
 
-dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
-                                size_t *len, dpz_err *err)
+dpz_status dpz_file_read_all(const char *path, const char *who, size_t max_bytes,
+                             char **buf, size_t *len, dpz_err *err)
 {
     *buf = NULL;
     *len = 0;
@@ -42,6 +43,13 @@ dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
         }
         size_t got = fread(data + n, 1, cap - n, f);
         n += got;
+        if (max_bytes != 0 && n > max_bytes) {
+            dpz__free(data);
+            fclose(f);
+            return dpz_err_set(err, DPZ_ELIMIT,
+                               "%s: %s: larger than the limit of %zu bytes", who, path,
+                               max_bytes);
+        }
         if (got == 0)
             break;
     }

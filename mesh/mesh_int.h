@@ -10,11 +10,6 @@
 /* pi to double precision (M_PI is not part of strict C17). */
 #define DPZ_PI 3.14159265358979323846
 
-/* Reads a whole file into a new NUL-terminated buffer (dpz__free it); *len excludes the
- * NUL. `who` prefixes error messages ("vtk reader"). */
-dpz_status dpz__read_whole_file(const char *path, const char *who, char **buf,
-                                size_t *len, dpz_err *err);
-
 /* Voxel count along one axis of a lattice placed symmetrically about a centre, for a
  * half extent of q voxels (see dpz_shape_voxelize): odd count (a voxel centre on the
  * centre) or even count (a face on it), whichever keeps voxel centres farther from the

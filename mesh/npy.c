@@ -11,6 +11,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "dpz_fileio.h"
 #include "mesh_int.h"
 
 #define WHO "npy reader"
@@ -269,7 +270,7 @@ dpz_status dpz_npy_read_file(dpz_grid **out, const char *path, double spacing_m,
         *out = NULL;
     char *buf;
     size_t len;
-    dpz_status st = dpz__read_whole_file(path, WHO, &buf, &len, err);
+    dpz_status st = dpz_file_read_all(path, WHO, 0, &buf, &len, err);
     if (st != DPZ_OK)
         return st;
     st = dpz_npy_read(out, buf, len, path, spacing_m, max_cells, err);

@@ -10,6 +10,7 @@
 #include <string.h>
 #include <strings.h>
 
+#include "dpz_fileio.h"
 #include "mesh_int.h"
 
 #define WHO "stl reader"
@@ -506,7 +507,7 @@ dpz_status dpz_stl_read_file(dpz_mesh **out, const char *path, double unit_m,
         *out = NULL;
     char *buf;
     size_t len;
-    dpz_status st = dpz__read_whole_file(path, WHO, &buf, &len, err);
+    dpz_status st = dpz_file_read_all(path, WHO, 0, &buf, &len, err);
     if (st != DPZ_OK)
         return st;
     st = dpz_stl_read(out, buf, len, path, unit_m, err);

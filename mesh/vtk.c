@@ -13,6 +13,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "dpz_fileio.h"
 #include "dpz_shape.h"
 #include "mesh_int.h"
 
@@ -678,7 +679,7 @@ dpz_status dpz_vtk_read_file(dpz_grid **out, const char *path, size_t max_cells,
         *out = NULL;
     char *buf;
     size_t len;
-    dpz_status st = dpz__read_whole_file(path, WHO, &buf, &len, err);
+    dpz_status st = dpz_file_read_all(path, WHO, 0, &buf, &len, err);
     if (st != DPZ_OK)
         return st;
     st = dpz_vtk_read(out, buf, len, path, max_cells, err);

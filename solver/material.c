@@ -8,6 +8,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "dpz_fileio.h"
+
 /* h c in eV nm (CODATA 2018, exact since the 2019 SI redefinition): E[eV] = HC_EV_NM /
  * lambda[nm]. */
 #define HC_EV_NM 1239.8419843320026
@@ -326,45 +328,12 @@ dpz_status dpz_material_create_table_file(dpz_material **out, const char *path,
     *out = NULL;
     if (!path)
         return dpz_err_set(err, DPZ_EINVAL, "material table: NULL path");
-    FILE *fp = fopen(path, "rb");
-    if (!fp)
-        return dpz_err_set(err, DPZ_EIO, "material table %s: cannot open: %s", path,
-                           strerror(errno));
-    size_t cap = 4096, len = 0;
-    char *buf = dpz__malloc(cap);
-    if (!buf) {
-        fclose(fp);
-        return dpz_err_set(err, DPZ_ENOMEM, "material table %s: out of memory", path);
-    }
-    for (;;) {
-        if (len == cap) {
-            if (cap > ((size_t)1 << 30)) {
-                dpz__free(buf);
-                fclose(fp);
-                return dpz_err_set(err, DPZ_ELIMIT,
-                                   "material table %s: larger than 1 GiB", path);
-            }
-            char *nb = dpz__realloc(buf, 2 * cap);
-            if (!nb) {
-                dpz__free(buf);
-                fclose(fp);
-                return dpz_err_set(err, DPZ_ENOMEM, "material table %s: out of memory",
-                                   path);
-            }
-            buf = nb;
-            cap *= 2;
-        }
-        size_t got = fread(buf + len, 1, cap - len, fp);
-        len += got;
-        if (got == 0)
-            break;
-    }
-    int bad = ferror(fp);
-    fclose(fp);
-    if (bad) {
-        dpz__free(buf);
-        return dpz_err_set(err, DPZ_EIO, "material table %s: read error", path);
-    }
+    char *buf = NULL;
+    size_t len = 0;
+    dpz_status rs =
+        dpz_file_read_all(path, "material table", (size_t)1 << 30, &buf, &len, err);
+    if (rs != DPZ_OK)
+        return rs;
     dpz_status st = dpz_material_create_table(out, buf, len, path, err);
     dpz__free(buf);
     return st;

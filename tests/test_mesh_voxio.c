@@ -14,6 +14,7 @@
 
 #include "dpz_test.h"
 
+#include "dpz_fileio.h"
 #include "dpz_grid.h"
 #include "dpz_shape.h"
 #include "dpz_voxio.h"
@@ -1092,6 +1093,40 @@ static void mutate(unsigned char *buf, size_t len, uint64_t *seed)
     }
 }
 
+/* The shared whole-file reader: contents and length, the size limit, a missing file. */
+static void test_file_read_all_limits(void **state)
+{
+    (void)state;
+    const char *path = scratch_path("bytes.txt");
+    FILE *f = fopen(path, "wb");
+    assert_non_null(f);
+    for (int i = 0; i < 100; i++)
+        fputc('a' + i % 26, f);
+    fclose(f);
+    char *buf = NULL;
+    size_t len = 0;
+    dpz_err err;
+    assert_int_equal(dpz_file_read_all(path, "test", 0, &buf, &len, &err), DPZ_OK);
+    assert_int_equal(len, 100);
+    assert_int_equal(buf[99], 'a' + 99 % 26);
+    assert_int_equal(buf[100], '\0');
+    dpz__free(buf);
+    assert_int_equal(dpz_file_read_all(path, "test", 100, &buf, &len, &err), DPZ_OK);
+    dpz__free(buf);
+    assert_int_equal(dpz_file_read_all(path, "test", 99, &buf, &len, &err), DPZ_ELIMIT);
+    assert_null(buf);
+    assert_non_null(strstr(err.msg, "test: "));
+    assert_non_null(strstr(err.msg, "99 bytes"));
+    assert_int_equal(
+        dpz_file_read_all(scratch_path("none.txt"), "test", 0, &buf, &len, &err),
+        DPZ_EIO);
+    assert_non_null(strstr(err.msg, "cannot open"));
+    dpz_alloc_fail_after(0);
+    assert_int_equal(dpz_file_read_all(path, "test", 0, &buf, &len, &err), DPZ_ENOMEM);
+    dpz_alloc_fail_after(-1);
+    remove(path);
+}
+
 static void test_readers_survive_mutations(void **state)
 {
     (void)state;
@@ -1166,6 +1201,7 @@ int main(void)
         cmocka_unit_test(test_vtk_rejects_truncated_binary),
         cmocka_unit_test(test_vtk_allocation_failure),
         cmocka_unit_test(test_vtk_write_failure_leaves_nothing),
+        cmocka_unit_test(test_file_read_all_limits),
         cmocka_unit_test(test_npy_every_dtype_order_and_version),
         cmocka_unit_test(test_npy_rejects_malformed),
         cmocka_unit_test(test_csv_round_trip_keeps_every_voxel),

@@ -113,7 +113,7 @@ static int json_complex(const cJSON *j, double complex *z)
     return -1;
 }
 
-/* A 3x3 tensor: 3 rows of 3 [re, im] pairs (DESIGN contract for JSON outputs). */
+/* A 3x3 tensor: 3 rows of 3 [re, im] pairs (the JSON layout of every dipolize command). */
 static int json_tensor3(const cJSON *j, double complex t[3][3])
 {
     if (!cJSON_IsArray(j) || cJSON_GetArraySize(j) != 3)

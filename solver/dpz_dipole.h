@@ -1,8 +1,9 @@
 /* dpz_dipole.h: voxel polarizability prescriptions and the lattice interaction kernel.
  *
- * Units (CONVENTIONS.md 1-3): polarizabilities in m^3 (SI volume units), so that
- * p~ = p / (eps0 eps_h) = alpha E; eps_rel is the permittivity relative to the host;
- * k = 2 pi n_h / lambda0 is the wavenumber in the host, 1/m; d is the voxel edge, m. */
+ * Units: SI; polarizabilities in m^3 (the Gaussian polarizabilities of Purcell &
+ * Pennypacker 1973 and Draine 1988 times 4 pi), so that p~ = p / (eps0 eps_h) = alpha E;
+ * eps_rel is the permittivity relative to the host; k = 2 pi n_h / lambda0 is the
+ * wavenumber in the host, 1/m; d is the voxel edge, m. */
 #ifndef DPZ_SOLVER_DIPOLE_H
 #define DPZ_SOLVER_DIPOLE_H
 
@@ -39,7 +40,8 @@ double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_r
 #define DPZ_DIPOLE_MKD_LIMIT 1.0
 double dpz_dipole_mkd(double complex eps_rel, double k, double d);
 
-/* Green tensor G(R) of CONVENTIONS.md 2 (E = G p~), R in metres, k in 1/m; the six
+/* Green tensor G(R) of an electric dipole (Jackson, Classical Electrodynamics, 3rd ed.,
+ * eq. 9.18 (number from memory), in SI volume units: E = G p~), R in metres, k in 1/m; the six
  * independent components in the order xx, xy, xz, yy, yz, zz, units m^-3. R must not be
  * zero. k = 0 gives the static tensor (3 RR - I)/(4 pi R^3). */
 void dpz_green_eval(double k, const double R[3], double complex g[6]);

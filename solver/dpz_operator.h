@@ -1,8 +1,8 @@
 /* dpz_operator.h: the discrete-dipole interaction operator A = alpha^-1 - G.
  *
- * The system of CONVENTIONS.md 3 is  alpha_j^-1 p~_j - sum_{l != j} G(r_j - r_l) p~_l =
- * E_inc(r_j). Vectors are compact over the occupied voxels of a grid, in the order of
- * grid->occ, three Cartesian components per voxel: x[3 * v + c], c = 0, 1, 2 for x, y, z.
+ * The coupled-dipole system (Purcell & Pennypacker 1973; Draine 1988) is
+ *     alpha_j^-1 p~_j - sum_{l != j} G(r_j - r_l) p~_l = E_inc(r_j).
+ * Vectors are compact over the occupied voxels of a grid, in the order of grid->occ, three Cartesian components per voxel: x[3 * v + c], c = 0, 1, 2 for x, y, z.
  * p~ in V m^2, E in V/m, A in m^-3. The matrix is complex symmetric (A^T = A).
  *
  * Two implementations share one kernel (dpz_green_kernel): the FFT operator (plan once,

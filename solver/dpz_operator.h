@@ -3,7 +3,8 @@
  * The coupled-dipole system (Purcell & Pennypacker 1973; Draine 1988) is
  *     alpha_j^-1 p~_j - sum_{l != j} G(r_j - r_l) p~_l = E_inc(r_j).
  * Vectors are compact over the occupied voxels of a grid, in the order of grid->occ,
- * three Cartesian components per voxel: x[3 * v + c], c = 0, 1, 2 for x, y, z. p~ in V m^2, E in V/m, A in m^-3. The matrix is complex symmetric (A^T = A).
+ * three Cartesian components per voxel: x[3 * v + c], c = 0, 1, 2 for x, y, z.
+ * p~ in V m^2, E in V/m, A in m^-3. The matrix is complex symmetric (A^T = A).
  *
  * Two implementations share one kernel (dpz_green_kernel): the FFT operator (plan once,
  * apply many) for production, and the dense operator (explicit 3N x 3N matrix, LAPACKE)

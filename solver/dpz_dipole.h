@@ -41,9 +41,9 @@ double complex dpz_dipole_inv_alpha(dpz_dipole_model model, double complex eps_r
 double dpz_dipole_mkd(double complex eps_rel, double k, double d);
 
 /* Green tensor G(R) of an electric dipole (Jackson, Classical Electrodynamics, 3rd ed.,
- * eq. 9.18 (number from memory), in SI volume units: E = G p~), R in metres, k in 1/m; the six
- * independent components in the order xx, xy, xz, yy, yz, zz, units m^-3. R must not be
- * zero. k = 0 gives the static tensor (3 RR - I)/(4 pi R^3). */
+ * eq. 9.18, number from memory; in SI volume units: E = G p~), R in metres, k in 1/m; the
+ * six independent components in the order xx, xy, xz, yy, yz, zz, units m^-3. R must not
+ * be zero. k = 0 gives the static tensor (3 RR - I)/(4 pi R^3). */
 void dpz_green_eval(double k, const double R[3], double complex g[6]);
 
 /* The interaction kernel between two voxels whose lattice offset is (i, j, l) (integers,

@@ -125,6 +125,20 @@ static int job_prepare(const cli_args *a, job *j)
     return CLI_OK;
 }
 
+/* The lattices of a run: with --refine N, the N refined grids (cli_refine_build);
+ * then the memory check against the finest grid the run will solve on. */
+static int job_levels(const cli_args *a, job *j, cli_refine *ref, size_t *levels,
+                      cli_work work)
+{
+    int rc = cli_refine_option(a, levels);
+    if (rc == CLI_OK && *levels)
+        rc = cli_refine_build(a, j->grid, *levels, ref);
+    if (rc == CLI_OK)
+        rc = cli_limits_check(a, *levels ? ref->grid[*levels - 1] : j->grid, &j->setup,
+                              work);
+    return rc;
+}
+
 /* Permittivities for the k = 0 and fixed-permittivity commands: at --wavelength when
  * given, else only constants are allowed. */
 static int fixed_eps(const cli_args *a, job *j, double *lambda_used)
@@ -216,12 +230,7 @@ static int run_static(const cli_args *a)
     if (rc == CLI_OK)
         rc = fixed_eps(a, &j, &lam);
     if (rc == CLI_OK)
-        rc = cli_refine_option(a, &levels);
-    if (rc == CLI_OK && levels)
-        rc = cli_refine_build(a, j.grid, levels, &ref);
-    if (rc == CLI_OK)
-        rc = cli_limits_check(a, levels ? ref.grid[levels - 1] : j.grid, &j.setup,
-                              CLI_WORK_STATIC);
+        rc = job_levels(a, &j, &ref, &levels, CLI_WORK_STATIC);
     if (rc != CLI_OK) {
         cli_refine_free(&ref);
         job_free(&j);
@@ -432,12 +441,7 @@ static int run_tensor(const cli_args *a)
     if (rc == CLI_OK)
         rc = cli_materials_eval(&j.mat, j.grid, lam, j.setup.eps_label);
     if (rc == CLI_OK)
-        rc = cli_refine_option(a, &levels);
-    if (rc == CLI_OK && levels)
-        rc = cli_refine_build(a, j.grid, levels, &ref);
-    if (rc == CLI_OK)
-        rc = cli_limits_check(a, levels ? ref.grid[levels - 1] : j.grid, &j.setup,
-                              CLI_WORK_TENSOR);
+        rc = job_levels(a, &j, &ref, &levels, CLI_WORK_TENSOR);
     if (rc != CLI_OK) {
         cli_refine_free(&ref);
         job_free(&j);

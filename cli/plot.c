@@ -12,6 +12,8 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "dpz_fileio.h"
+
 /* Largest table accepted: 2 GiB (10^5 wavelengths x 36 rows x ~150 bytes fit easily). */
 #define PIC_MAX_TABLE_BYTES ((size_t)1 << 31)
 #define PIC_MAX_COLS 64
@@ -55,53 +57,7 @@ char *dpz__pic_join(const char *dir, const char *name)
 dpz_status dpz__pic_read_file(const char *path, size_t max_bytes, char **out, size_t *len,
                               dpz_err *err)
 {
-    *out = NULL;
-    *len = 0;
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return dpz_err_set(err, DPZ_EIO, "%s: cannot open: %s", path, strerror(errno));
-    size_t cap = 65536, n = 0;
-    char *buf = dpz__malloc(cap);
-    if (!buf) {
-        fclose(f);
-        return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
-    }
-    for (;;) {
-        if (n + 1 >= cap) {
-            if (cap > max_bytes) {
-                free(buf);
-                fclose(f);
-                return dpz_err_set(err, DPZ_ELIMIT, "%s: larger than %zu bytes", path,
-                                   max_bytes);
-            }
-            char *nb = dpz__realloc(buf, cap * 2);
-            if (!nb) {
-                free(buf);
-                fclose(f);
-                return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
-            }
-            buf = nb;
-            cap *= 2;
-        }
-        size_t r = fread(buf + n, 1, cap - 1 - n, f);
-        n += r;
-        if (r == 0)
-            break;
-    }
-    int bad = ferror(f);
-    fclose(f);
-    if (bad) {
-        free(buf);
-        return dpz_err_set(err, DPZ_EIO, "%s: read error", path);
-    }
-    if (n > max_bytes) {
-        free(buf);
-        return dpz_err_set(err, DPZ_ELIMIT, "%s: larger than %zu bytes", path, max_bytes);
-    }
-    buf[n] = '\0';
-    *out = buf;
-    *len = n;
-    return DPZ_OK;
+    return dpz_file_read_all(path, NULL, max_bytes, out, len, err);
 }
 
 /* Cyclic Jacobi for a symmetric 3x3 matrix (Golub & Van Loan 2013, algorithm 8.5.3). */

@@ -15,6 +15,8 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "dpz_fileio.h"
+
 #ifndef DPZ_VERSION
 #define DPZ_VERSION "unknown"
 #endif
@@ -458,43 +460,7 @@ dpz_status dpz_sweep_table_scan(dpz_table_kind kind, const char *name, const cha
 /* ---- files ------------------------------------------------------------------------ */
 dpz_status dpz_sweep_read_file(const char *path, char **buf, size_t *len, dpz_err *err)
 {
-    *buf = NULL;
-    *len = 0;
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return dpz_err_set(err, DPZ_EIO, "%s: cannot open: %s", path, strerror(errno));
-    size_t cap = 65536, n = 0;
-    char *p = dpz__malloc(cap);
-    if (!p) {
-        fclose(f);
-        return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
-    }
-    for (;;) {
-        if (cap - n < 2) {
-            char *q = cap < SIZE_MAX / 2 ? dpz__realloc(p, cap * 2) : NULL;
-            if (!q) {
-                free(p);
-                fclose(f);
-                return dpz_err_set(err, DPZ_ENOMEM, "%s: out of memory", path);
-            }
-            p = q;
-            cap *= 2;
-        }
-        size_t got = fread(p + n, 1, cap - n - 1, f);
-        n += got;
-        if (got == 0)
-            break;
-    }
-    int bad = ferror(f);
-    fclose(f);
-    if (bad) {
-        free(p);
-        return dpz_err_set(err, DPZ_EIO, "%s: read error", path);
-    }
-    p[n] = '\0';
-    *buf = p;
-    *len = n;
-    return DPZ_OK;
+    return dpz_file_read_all(path, NULL, 0, buf, len, err);
 }
 
 static dpz_status fsync_dir(const char *dir, dpz_err *err)

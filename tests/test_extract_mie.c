@@ -155,9 +155,10 @@ static void test_mie_large_x(void **state)
     assert_close(res.q_ext, 2.0, 0.02);
 }
 
-/* Public check values (8 significant digits) computed from the B&H 1983 formulas:
+/* Reference values to 8 significant digits from the B&H 1983 formulas (eqs. 4.56-4.57),
+ * reproduced with scipy.special by tests/data/extract/mie_ref.py (case eps 2.25, x 0.5):
  * sphere eps_r 2.25, a = 50 nm, k = 1e7 1/m (x = 0.5). */
-static void test_mie_public_check_values(void **state)
+static void test_mie_reference_values(void **state)
 {
     (void)state;
     const double tol8 = 1e-7; /* 8 significant digits quoted */
@@ -294,7 +295,7 @@ int main(void)
         cmocka_unit_test(test_mie_matches_scipy),
         cmocka_unit_test(test_mie_efficiencies_match_scipy),
         cmocka_unit_test(test_mie_large_x),
-        cmocka_unit_test(test_mie_public_check_values),
+        cmocka_unit_test(test_mie_reference_values),
         cmocka_unit_test(test_mie_small_x_limits),
         cmocka_unit_test(test_mie_lossless_identity),
         cmocka_unit_test(test_mie_energy_balance),

@@ -88,8 +88,9 @@ static void test_static_depolarization_factors(void **state)
     assert_int_equal(dpz_ellipsoid_depolarization(bad, L, &err), DPZ_EINVAL);
 }
 
-/* Public check values (8 digits) computed from the Osborn/B&H formulas: semi-axes 10,
- * 20, 30 nm, eps_r = 4. */
+/* Reference values to 8 digits from the Osborn 1945 / B&H 1983 (eq. 5.33) formulas (the
+ * factors of semi-axes 1:2:3 are reproduced with scipy.special.elliprd by
+ * tests/data/extract/ellipsoid_ref.py): semi-axes 10, 20, 30 nm, eps_r = 4. */
 static void test_static_ellipsoid_check_values(void **state)
 {
     (void)state;

@@ -83,7 +83,8 @@ static void test_tblock_conversion_round_trip(void **state)
 
 /* Sphere: T_NN = -a_1 I, T_MM = -b_1 I gives a_ee = 6 pi i a_1/k^3, a_mm = 6 pi i b_1/k^3
  * (Bohren & Huffman 1983 with the VSWF normalization of Mishchenko et al. 2002) and the
- * public check values for eps 2.25, a = 50 nm, k = 1e7 1/m. */
+ * Mie reference values for eps 2.25, a = 50 nm, k = 1e7 1/m (B&H 1983 formulas,
+ * reproduced with scipy by tests/data/extract/mie_ref.py). */
 static void test_tblock_sphere_t_gives_mie_alpha(void **state)
 {
     (void)state;

@@ -10,6 +10,8 @@
 #include <string.h>
 #include <time.h>
 
+#include "dpz_post.h"
+
 /* Verdict thresholds. The dipole-validity ratio ||[T2;T3]|| / ||T11|| measures how much
  * of the response to order-1 waves leaks into quadrupole and octupole waves: a few
  * percent is the usual working limit of point-dipole lattice models (common practice). */
@@ -205,6 +207,95 @@ static void grid_table(const dpz_grid *g, double host)
 static cJSON *error_tensor_json(const double complex *err)
 {
     return cli_json_tensor3_flat(err);
+}
+
+/* The four 3x3 blocks of a 6x6 tensor (m^3) as {ee, em, me, mm}. */
+static cJSON *blocks_json(const double complex *A)
+{
+    static const char *const name[4] = {"ee", "em", "me", "mm"};
+    cJSON *o = cJSON_CreateObject();
+    for (int b = 0; b < 4; b++)
+        cJSON_AddItemToObject(o, name[b],
+                              cli_json_block_flat(A, 3 * (b >> 1), 3 * (b & 1)));
+    return o;
+}
+
+/* What a designer reads off the tensor besides its elements (extract/dpz_post.h):
+ * principal values and axes of the Hermitian (reactive) parts of a_ee and a_mm, the
+ * orientation averages tr(block)/3, the chirality pseudoscalar tr(a_em)/3 and the
+ * bianisotropy measure. NULL when LAPACK fails (the caller then omits the object). */
+static cJSON *post_json(double complex A[6][6])
+{
+    cJSON *o = cJSON_CreateObject();
+    static const char *const which[2] = {"ee_hermitian", "mm_hermitian"};
+    for (int b = 0; b < 2; b++) {
+        double complex blk[3][3];
+        for (int r = 0; r < 3; r++)
+            for (int c = 0; c < 3; c++)
+                blk[r][c] = A[3 * b + r][3 * b + c];
+        double w[3];
+        double complex ax[3][3];
+        if (dpz_post_principal_herm(blk, w, ax, NULL) != DPZ_OK) {
+            cJSON_Delete(o);
+            return NULL;
+        }
+        cJSON *p = cJSON_CreateObject();
+        cJSON_AddItemToObject(p, "values_m3", cli_json_doubles(w, 3));
+        /* axes[i]: unit eigenvector of values_m3[i], grid frame, complex components
+         * (real up to a phase for a symmetric block). */
+        cJSON *axes = cJSON_CreateArray();
+        for (int i = 0; i < 3; i++) {
+            /* An eigenvector is fixed up to a phase: make its largest component real and
+             * positive, so that real axes print as real vectors. */
+            int big = 0;
+            for (int c = 1; c < 3; c++)
+                if (cabs(ax[c][i]) > cabs(ax[big][i]))
+                    big = c;
+            double complex ph =
+                cabs(ax[big][i]) > 0 ? conj(ax[big][i]) / cabs(ax[big][i]) : 1;
+            cJSON *v = cJSON_CreateArray();
+            for (int c = 0; c < 3; c++)
+                cJSON_AddItemToArray(v, cli_json_complex(ax[c][i] * ph));
+            cJSON_AddItemToArray(axes, v);
+        }
+        cJSON_AddItemToObject(p, "axes", axes);
+        cJSON_AddItemToObject(o, which[b], p);
+    }
+    double complex avg[4];
+    dpz_post_orientation_average(A, avg);
+    cJSON *av = cJSON_CreateObject();
+    static const char *const name[4] = {"ee", "em", "me", "mm"};
+    for (int b = 0; b < 4; b++)
+        cJSON_AddItemToObject(av, name[b], cli_json_complex(avg[b]));
+    cJSON_AddItemToObject(o, "orientation_average_m3", av);
+    cJSON_AddItemToObject(o, "chirality_m3", cli_json_complex(dpz_post_chirality(A)));
+    cli_json_add_number(o, "bianisotropy", dpz_post_bianisotropy(A));
+    return o;
+}
+
+/* The post-processing of post_json, in words, normalized by the volume V. */
+static void post_table(double complex A[6][6], double V)
+{
+    static const char *const name[2] = {"a_ee", "a_mm"};
+    printf("\n");
+    for (int b = 0; b < 2; b++) {
+        double complex blk[3][3];
+        for (int r = 0; r < 3; r++)
+            for (int c = 0; c < 3; c++)
+                blk[r][c] = A[3 * b + r][3 * b + c];
+        double w[3];
+        if (dpz_post_principal_herm(blk, w, NULL, NULL) == DPZ_OK)
+            printf("principal values of the Hermitian part of %s / V: %.5g %.5g %.5g\n",
+                   name[b], w[0] / V, w[1] / V, w[2] / V);
+    }
+    double complex avg[4];
+    dpz_post_orientation_average(A, avg);
+    printf("orientation averages / V: ee %.5g%+.5gi, mm %.5g%+.5gi, em %.5g%+.5gi\n",
+           creal(avg[0]) / V, cimag(avg[0]) / V, creal(avg[3]) / V, cimag(avg[3]) / V,
+           creal(avg[1]) / V, cimag(avg[1]) / V);
+    double complex ch = dpz_post_chirality(A);
+    printf("chirality tr(a_em)/3 / V: %.5g%+.5gi; bianisotropy measure: %.4g\n",
+           creal(ch) / V, cimag(ch) / V, dpz_post_bianisotropy(A));
 }
 
 static void refine_table(const cli_refine *r)
@@ -570,28 +661,17 @@ static int run_tensor(const cli_args *a)
                 cJSON_AddItemToArray(eps, m);
             }
         cJSON_AddItemToObject(o, "materials", eps);
-        cJSON *al = cJSON_CreateObject();
-        cJSON_AddItemToObject(al, "ee", cli_json_block(A, 0, 0));
-        cJSON_AddItemToObject(al, "em", cli_json_block(A, 0, 3));
-        cJSON_AddItemToObject(al, "me", cli_json_block(A, 3, 0));
-        cJSON_AddItemToObject(al, "mm", cli_json_block(A, 3, 3));
-        cJSON_AddItemToObject(o, "alpha", al);
+        cJSON_AddItemToObject(o, "alpha", blocks_json(&A[0][0]));
+        if (s == DPZ_OK) {
+            cJSON *post = post_json(A);
+            if (post)
+                cJSON_AddItemToObject(o, "post", post);
+        }
         if (levels) {
-            cJSON *er = cJSON_CreateObject();
-            cJSON_AddItemToObject(er, "ee", cli_json_block(A_err, 0, 0));
-            cJSON_AddItemToObject(er, "em", cli_json_block(A_err, 0, 3));
-            cJSON_AddItemToObject(er, "me", cli_json_block(A_err, 3, 0));
-            cJSON_AddItemToObject(er, "mm", cli_json_block(A_err, 3, 3));
-            cJSON_AddItemToObject(o, "error", er);
+            cJSON_AddItemToObject(o, "error", blocks_json(&A_err[0][0]));
             cJSON *per = cJSON_CreateArray();
-            for (size_t l = 0; l < nl; l++) {
-                cJSON *lv = cJSON_CreateObject();
-                cJSON_AddItemToObject(lv, "ee", cli_json_block(ts[l].A, 0, 0));
-                cJSON_AddItemToObject(lv, "em", cli_json_block(ts[l].A, 0, 3));
-                cJSON_AddItemToObject(lv, "me", cli_json_block(ts[l].A, 3, 0));
-                cJSON_AddItemToObject(lv, "mm", cli_json_block(ts[l].A, 3, 3));
-                cJSON_AddItemToArray(per, lv);
-            }
+            for (size_t l = 0; l < nl; l++)
+                cJSON_AddItemToArray(per, blocks_json(&ts[l].A[0][0]));
             cJSON_AddItemToObject(rj, "alpha_levels", per);
             cJSON_AddItemToObject(o, "refine", rj);
             rj = NULL;
@@ -677,6 +757,8 @@ static int run_tensor(const cli_args *a)
                      levels ? "%s / V (V of the true object)" : "%s / V", names[b]);
             cli_print_tensor3(stdout, title, blk, V, z / V, "dimensionless");
         }
+        if (s == DPZ_OK)
+            post_table(A, V);
         printf("\ndipole picture: %s\n", v1);
         printf("reciprocity:    %s\n", v2);
         printf("energy:         %s\n", v3);

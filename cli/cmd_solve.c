@@ -384,6 +384,22 @@ static int run_static(const cli_args *a)
             for (int c = 0; c < 3; c++)
                 n3[r][c] = chi[r][c] / V;
         cJSON_AddItemToObject(o, "chi_over_volume", cli_json_tensor3(n3));
+        if (s == DPZ_OK) {
+            /* Principal values (ascending, m^3) and unit axes (grid frame) of the
+             * symmetric part of Re chi (extract/dpz_post.h). */
+            double w[3], ax[3][3];
+            if (dpz_post_principal_real(chi, w, ax, NULL) == DPZ_OK) {
+                cJSON *pr = cJSON_CreateObject();
+                cJSON_AddItemToObject(pr, "values_m3", cli_json_doubles(w, 3));
+                cJSON *axes = cJSON_CreateArray();
+                for (int i = 0; i < 3; i++) {
+                    double v[3] = {ax[0][i], ax[1][i], ax[2][i]};
+                    cJSON_AddItemToArray(axes, cli_json_vec3(v));
+                }
+                cJSON_AddItemToObject(pr, "axes", axes);
+                cJSON_AddItemToObject(o, "chi_principal", pr);
+            }
+        }
         cli_json_grid_facts(o, j.grid);
         cli_json_add_number(o, "host_index", j.mat.host_index);
         if (lam > 0)

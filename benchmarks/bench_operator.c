@@ -85,7 +85,7 @@ int main(int argc, char **argv)
             eps[i] = 2.25;
         dpz_err err;
         dpz_operator_inv_alpha(g, eps, 1.0, k, DPZ_DIPOLE_CMRR, ia, &err);
-        dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE};
+        dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO};
         dpz_fftop *op = NULL;
         if (dpz_fftop_create(&op, g, k, DPZ_DIPOLE_CMRR, ia, &o, &err) != DPZ_OK) {
             fprintf(stderr, "bench: %s\n", err.msg);
@@ -167,7 +167,7 @@ int main(int argc, char **argv)
                 eps[i] = epss[e];
             dpz_err err;
             dpz_operator_inv_alpha(g, eps, 1.0, k, DPZ_DIPOLE_CMRR, ia, &err);
-            dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE};
+            dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO};
             dpz_fftop *op = NULL;
             dpz_fftop_create(&op, g, k, DPZ_DIPOLE_CMRR, ia, &o, &err);
             dpz_linop L = dpz_fftop_linop(op);

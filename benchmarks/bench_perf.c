@@ -79,7 +79,7 @@ static dpz_fftop *make_op(const dpz_grid *g, int threads, double complex **ia_ou
     double complex *ia = malloc(g->n_occ * sizeof *ia);
     dpz_err err;
     dpz_fftop *op = NULL;
-    dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE};
+    dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO};
     if (!ia ||
         dpz_operator_inv_alpha(g, eps, 1.0, k, DPZ_DIPOLE_CMRR, ia, &err) != DPZ_OK ||
         dpz_fftop_create(&op, g, k, DPZ_DIPOLE_CMRR, ia, &o, &err) != DPZ_OK) {

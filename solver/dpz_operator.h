@@ -35,9 +35,15 @@ typedef struct dpz_linop {
 /* FFTW planner effort. */
 typedef enum { DPZ_PLAN_ESTIMATE = 0, DPZ_PLAN_MEASURE = 1, DPZ_PLAN_PATIENT = 2 } dpz_plan;
 
+/* Instruction set of the FFT operator's 3x3 kernel product. AUTO uses AVX2 with FMA
+ * where the CPU has them (results then differ from GENERIC in the last bits: FMA rounds
+ * once); GENERIC forces the portable code (tests compare the two). */
+typedef enum { DPZ_SIMD_AUTO = 0, DPZ_SIMD_GENERIC = 1 } dpz_simd;
+
 typedef struct dpz_op_opts {
     int threads;   /* FFTW and OpenMP threads; <= 0 means 1 */
     dpz_plan plan; /* planner effort */
+    dpz_simd simd; /* kernel product instruction set (zero-initialised: AUTO) */
 } dpz_op_opts;
 
 /* ---- FFT operator ------------------------------------------------------------------ */
@@ -60,6 +66,9 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
                             dpz_dipole_model model, const double complex *inv_alpha,
                             const dpz_op_opts *opts, dpz_err *err);
 void dpz_fftop_destroy(dpz_fftop *op); /* NULL is a no-op */
+
+/* "avx2-fma" or "generic": the kernel product this operator uses. */
+const char *dpz_fftop_product_name(const dpz_fftop *op);
 
 /* Replaces the diagonal 1/alpha (n_occ entries, copied) without recomputing the kernel. */
 dpz_status dpz_fftop_set_diag(dpz_fftop *op, const double complex *inv_alpha, dpz_err *err);

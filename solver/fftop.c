@@ -12,10 +12,11 @@
  *     points each (a quarter of the padded grid: only the lines that hold data) and
  *     transformed along z;
  *  2. for each small block of consecutive z frequencies, the nx x ny slices of the slab
- *     are copied into a per-thread zero-padded px x py plane buffer, transformed along
- *     y (only the nx rows that hold data) and x (all columns), multiplied by the 3x3
- *     kernel tensor, transformed back along x and y, and the nx x ny part that is needed
- *     is copied back into the slab;
+ *     are copied into a per-thread zero-padded px x py plane buffer (rows padded by one
+ *     frequency group against cache set conflicts), transformed along y (only the nx
+ *     rows that hold data) and x (all columns), multiplied by the 3x3 kernel tensor
+ *     (AVX2/FMA code where the CPU has it), transformed back along x and y, and the
+ *     nx x ny part that is needed is copied back into the slab;
  *  3. the slab is transformed back along z and gathered.
  * The work is that of the transforms pruned to the lines that hold data on the way in and
  * the lines that are kept on the way out (about 7/12 of two full 3-D transforms for
@@ -39,13 +40,24 @@
 #include <fftw3.h>
 #include <omp.h>
 
+/* The AVX2/FMA kernel product is compiled (with a target attribute, the rest of the
+ * project stays generic x86-64) where the compiler supports it, and chosen at run time. */
+#if (defined(__x86_64__) || defined(__i386__)) && defined(__GNUC__)
+#define DPZ_FFTOP_AVX2 1
+#include <immintrin.h>
+#else
+#define DPZ_FFTOP_AVX2 0
+#endif
+
 #include "solver_int.h"
 
-/* Consecutive z frequencies processed together in one plane block. The copies in and out
- * of the slab then move whole cache lines, and FFTW's plane passes run over ZBLOCK
- * contiguous transforms at a time: 16 measured faster than 4 on 64^3
- * (benchmarks/README.md). */
+/* At most ZBLOCK consecutive z frequencies are processed together in one plane block,
+ * fewer when the block would exceed PLANE_BUDGET bytes: the copies in and out of the slab
+ * then move whole cache lines, FFTW's plane passes run over zb contiguous transforms at
+ * a time, and the block stays in the outer caches (values measured on this project's
+ * machine, 1 MB L2 per core and 32 MB L3: benchmarks/README.md). */
 #define ZBLOCK 16
+#define PLANE_BUDGET ((size_t)2 << 20)
 /* Lines per z-transform call (a unit of work for the threads). */
 #define ZLINES 16
 
@@ -59,6 +71,7 @@ struct dpz_fftop {
     size_t htot;          /* h[0] h[1] h[2] */
     size_t cs;            /* slab component stride, nx ny pz */
     size_t zb;            /* z frequencies per plane block (<= ZBLOCK) */
+    size_t rs;            /* plane buffer x-row stride, >= py zb */
     size_t ps;            /* plane buffer component stride, px py zb */
     size_t pt;            /* plane buffer stride between threads, >= 3 ps */
     int threads;          /* OpenMP threads */
@@ -76,6 +89,8 @@ struct dpz_fftop {
      * frequencies and for the remainder pz mod zb (index 0 full, 1 remainder). */
     fftw_plan fz[2], bz[2], fy[2], fx[2], bx[2], by[2];
     size_t zlines_rem, zb_rem;
+    /* the kernel product of a plane block (generic or AVX2, chosen at creation) */
+    void (*product)(const struct dpz_fftop *op, double complex *P, size_t c0, size_t nt);
 };
 
 /* ---- sizes and memory
@@ -98,7 +113,7 @@ static size_t fft_friendly_even(size_t n)
 }
 
 typedef struct layout {
-    size_t p[3], ptot, h[3], htot, cs, zb, ps, pt;
+    size_t p[3], ptot, h[3], htot, cs, zb, rs, ps, pt;
 } layout;
 
 static int make_layout(const dpz_grid *g, layout *L)
@@ -118,8 +133,20 @@ static int make_layout(const dpz_grid *g, layout *L)
         return -1;
     L->htot = L->h[0] * L->h[1] * L->h[2];
     L->cs = n[0] * n[1] * L->p[2];
-    L->zb = L->p[2] < ZBLOCK ? L->p[2] : ZBLOCK;
-    L->ps = L->p[0] * L->p[1] * L->zb;
+    /* The plane buffer's x rows are py + 1 frequency groups apart (one unused group):
+     * with the plain stride py zb, a power of two times 16 bytes for most sizes, the
+     * elements of one x line fall into a few cache sets and the x passes thrash
+     * (measured: 5.0 s against 1.1 s per apply at 128^3, 0.95 against 0.55 ms at 16^3).
+     * The block of z frequencies is the largest power of two <= ZBLOCK whose plane buffer
+     * fits in PLANE_BUDGET bytes, at least 2 (FFTW vectorizes over the block). */
+    L->zb = ZBLOCK;
+    while (L->zb > 2 && 3 * L->p[0] * (L->p[1] + 1) * L->zb * sizeof(double complex) >
+                            PLANE_BUDGET)
+        L->zb /= 2;
+    if (L->zb > L->p[2])
+        L->zb = L->p[2];
+    L->rs = (L->p[1] + 1) * L->zb;
+    L->ps = L->p[0] * L->rs;
     /* Each thread's buffer starts on a 128-byte boundary, aligned like the first one
      * (FFTW's new-array execute needs the alignment the plan was made with). */
     L->pt = (3 * L->ps + 7) / 8 * 8;
@@ -146,6 +173,30 @@ size_t dpz_fftop_memory_need_threads(const dpz_grid *grid, int threads)
     if (!grid || grid->nx == 0 || grid->ny == 0 || grid->nz == 0 || make_layout(grid, &L))
         return 0;
     return memory_need(grid, &L, threads > 0 ? (size_t)threads : 1);
+}
+
+/* ---- kernel product variants (defined with the apply below) ---------------------------
+ */
+static void product_generic(const dpz_fftop *op, double complex *P, size_t c0, size_t nt);
+#if DPZ_FFTOP_AVX2
+static void product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt);
+
+/* CPU and operating system support AVX2 and FMA (GCC's CPU detection checks that the OS
+ * saves the YMM registers). */
+static int cpu_has_avx2_fma(void)
+{
+    __builtin_cpu_init();
+    return __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma");
+}
+#endif
+
+const char *dpz_fftop_product_name(const dpz_fftop *op)
+{
+#if DPZ_FFTOP_AVX2
+    if (op && op->product == product_avx2)
+        return "avx2-fma";
+#endif
+    return "generic";
 }
 
 /* ---- FFTW set-up ---------------------------------------------------------------------
@@ -251,7 +302,7 @@ static fftw_plan plan_z(dpz_fftop *op, size_t lines, int dir, unsigned flags)
 static fftw_plan plan_plane(dpz_fftop *op, int axis, size_t nt, int dir, unsigned flags)
 {
     const size_t *p = op->p, zb = op->zb;
-    ptrdiff_t sx = (ptrdiff_t)(p[1] * zb), sy = (ptrdiff_t)zb;
+    ptrdiff_t sx = (ptrdiff_t)op->rs, sy = (ptrdiff_t)zb;
     fftw_iodim64 dim, how[3];
     if (axis == 0) {
         dim = (fftw_iodim64){(ptrdiff_t)p[0], sx, sx};
@@ -396,9 +447,15 @@ dpz_status dpz_fftop_create(dpz_fftop **out, const dpz_grid *grid, double k,
     op->htot = L.htot;
     op->cs = L.cs;
     op->zb = L.zb;
+    op->rs = L.rs;
     op->ps = L.ps;
     op->pt = L.pt;
     op->threads = opts && opts->threads > 0 ? opts->threads : 1;
+    op->product = product_generic;
+#if DPZ_FFTOP_AVX2
+    if (!(opts && opts->simd == DPZ_SIMD_GENERIC) && cpu_has_avx2_fma())
+        op->product = product_avx2;
+#endif
     size_t axes = L.p[0] + L.p[1] + L.p[2];
     op->kern = fft_alloc(6 * L.htot);
     op->slab = fft_alloc(3 * L.cs);
@@ -537,33 +594,13 @@ static inline void cmul3(const double *k6, double sxy, double sxz, double syz, d
     memcpy(z, &oz, sizeof oz);
 }
 
-/* Step 2 of the apply for the block of nt z frequencies starting at c0, in the plane
- * buffer P of one thread; `rem` selects the remainder plans. */
-static void plane_block(dpz_fftop *op, double complex *P, size_t c0, size_t nt, int rem)
+/* The 3x3 symmetric tensor product for the nt frequencies c0.. of a plane block P; the
+ * kernel is stored on the octant and unfolded with the parity of each component (xy odd
+ * in x and y, and so on). Portable version (SSE2 on x86-64). */
+static void product_generic(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
 {
-    const size_t *n = op->n, *p = op->p, *h = op->h;
-    size_t zb = op->zb, ps = op->ps, pz = p[2], cs = op->cs;
-    size_t rowlen = p[1] * zb; /* one x row of the plane */
-    /* Copy in, zero padding in y and the rows nx..px. */
-    for (int c = 0; c < 3; c++) {
-        double complex *Pc = P + (size_t)c * ps;
-        const double complex *Sc = op->slab + (size_t)c * cs;
-        for (size_t a = 0; a < n[0]; a++) {
-            double complex *row = Pc + a * rowlen;
-            for (size_t b = 0; b < n[1]; b++) {
-                const double complex *src = Sc + (a * n[1] + b) * pz + c0;
-                for (size_t t = 0; t < nt; t++)
-                    row[b * zb + t] = src[t];
-            }
-            memset(row + n[1] * zb, 0, (p[1] - n[1]) * zb * sizeof *row);
-        }
-        memset(Pc + n[0] * rowlen, 0, (p[0] - n[0]) * rowlen * sizeof *Pc);
-    }
-    fftw_complex *f = (fftw_complex *)P;
-    fftw_execute_dft(op->fy[rem], f, f);
-    fftw_execute_dft(op->fx[rem], f, f);
-    /* 3x3 symmetric tensor product per frequency; the kernel is stored on the octant and
-     * unfolded with the parity of each component (xy odd in x and y, and so on). */
+    const size_t *p = op->p, *h = op->h;
+    size_t zb = op->zb, ps = op->ps, rowlen = op->rs;
     const size_t *rx = op->refl, *ry = op->refl + p[0], *rz = op->refl + p[0] + p[1];
     const double *sx = op->sign, *sy = op->sign + p[0], *sz = op->sign + p[0] + p[1];
     const double *K = (const double *)op->kern;
@@ -579,18 +616,111 @@ static void plane_block(dpz_fftop *op, double complex *P, size_t c0, size_t nt, 
                       b0 + 2 * (q0 + t), b1 + 2 * (q0 + t), b2 + 2 * (q0 + t));
             }
         }
+}
+
+#if DPZ_FFTOP_AVX2
+/* The same product with AVX2 and FMA (selected at run time when the CPU has them: FFTW's
+ * own codelets already use them, and the generic build of the project is SSE2 only),
+ * two consecutive frequencies per 256-bit register. Complex products as in the generic
+ * version, g v = Re(g) v + Im(g) (i v), with the two sums combined by one addsub:
+ * out = sum Re(g) v (+/-) sum Im(g) swap(v), subtracting in the real lanes (the usual
+ * SIMD complex multiply; Intel optimization manual, "complex arithmetic"; common
+ * practice). Equal to the generic product up to rounding (FMA rounds once). */
+__attribute__((target("avx2,fma"))) static void
+product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
+{
+    const size_t *p = op->p, *h = op->h;
+    size_t zb = op->zb, ps = op->ps, rowlen = op->rs;
+    const size_t *rx = op->refl, *ry = op->refl + p[0], *rz = op->refl + p[0] + p[1];
+    const double *sx = op->sign, *sy = op->sign + p[0], *sz = op->sign + p[0] + p[1];
+    const double *K = (const double *)op->kern;
+    double *b0 = (double *)P, *b1 = (double *)(P + ps), *b2 = (double *)(P + 2 * ps);
+    size_t npair = nt / 2;
+    for (size_t a = 0; a < p[0]; a++)
+        for (size_t b = 0; b < p[1]; b++) {
+            size_t row = (rx[a] * h[1] + ry[b]) * h[2];
+            double sab = sx[a] * sy[b];
+            const __m256d vab = _mm256_set1_pd(sab);
+            size_t q0 = a * rowlen + b * zb;
+            for (size_t t2 = 0; t2 < npair; t2++) {
+                size_t t = 2 * t2, c = c0 + t;
+                const double *k0 = K + 12 * (row + rz[c]), *k1 = K + 12 * (row + rz[c + 1]);
+                __m256d vz = _mm256_set_pd(sz[c + 1], sz[c + 1], sz[c], sz[c]);
+                __m256d g[6];
+                for (int m = 0; m < 6; m++)
+                    g[m] = _mm256_loadu2_m128d(k1 + 2 * m, k0 + 2 * m);
+                g[1] = _mm256_mul_pd(g[1], vab);
+                g[2] = _mm256_mul_pd(g[2], _mm256_mul_pd(vz, _mm256_set1_pd(sx[a])));
+                g[4] = _mm256_mul_pd(g[4], _mm256_mul_pd(vz, _mm256_set1_pd(sy[b])));
+                __m256d gr[6], gi[6];
+                for (int m = 0; m < 6; m++) {
+                    gr[m] = _mm256_movedup_pd(g[m]);
+                    gi[m] = _mm256_permute_pd(g[m], 0xF);
+                }
+                double *px = b0 + 2 * (q0 + t), *py = b1 + 2 * (q0 + t),
+                       *pz = b2 + 2 * (q0 + t);
+                __m256d X = _mm256_loadu_pd(px), Y = _mm256_loadu_pd(py),
+                        Z = _mm256_loadu_pd(pz);
+                __m256d Xs = _mm256_permute_pd(X, 0x5), Ys = _mm256_permute_pd(Y, 0x5),
+                        Zs = _mm256_permute_pd(Z, 0x5);
+                __m256d xr = _mm256_fmadd_pd(
+                    gr[2], Z, _mm256_fmadd_pd(gr[1], Y, _mm256_mul_pd(gr[0], X)));
+                __m256d xi = _mm256_fmadd_pd(
+                    gi[2], Zs, _mm256_fmadd_pd(gi[1], Ys, _mm256_mul_pd(gi[0], Xs)));
+                __m256d yr = _mm256_fmadd_pd(
+                    gr[4], Z, _mm256_fmadd_pd(gr[3], Y, _mm256_mul_pd(gr[1], X)));
+                __m256d yi = _mm256_fmadd_pd(
+                    gi[4], Zs, _mm256_fmadd_pd(gi[3], Ys, _mm256_mul_pd(gi[1], Xs)));
+                __m256d zr = _mm256_fmadd_pd(
+                    gr[5], Z, _mm256_fmadd_pd(gr[4], Y, _mm256_mul_pd(gr[2], X)));
+                __m256d zi = _mm256_fmadd_pd(
+                    gi[5], Zs, _mm256_fmadd_pd(gi[4], Ys, _mm256_mul_pd(gi[2], Xs)));
+                _mm256_storeu_pd(px, _mm256_addsub_pd(xr, xi));
+                _mm256_storeu_pd(py, _mm256_addsub_pd(yr, yi));
+                _mm256_storeu_pd(pz, _mm256_addsub_pd(zr, zi));
+            }
+            if (nt % 2) {
+                size_t t = nt - 1, c = c0 + t;
+                cmul3(K + 12 * (row + rz[c]), sab, sx[a] * sz[c], sy[b] * sz[c],
+                      b0 + 2 * (q0 + t), b1 + 2 * (q0 + t), b2 + 2 * (q0 + t));
+            }
+        }
+}
+#endif
+
+/* Step 2 of the apply for the block of nt z frequencies starting at c0, in the plane
+ * buffer P of one thread; `rem` selects the remainder plans. */
+static void plane_block(dpz_fftop *op, double complex *P, size_t c0, size_t nt, int rem)
+{
+    const size_t *n = op->n, *p = op->p;
+    size_t zb = op->zb, ps = op->ps, pz = p[2], cs = op->cs;
+    size_t rowlen = op->rs; /* one x row of the plane */
+    /* Copy in, zero padding in y and the rows nx..px. */
+    for (int c = 0; c < 3; c++) {
+        double complex *Pc = P + (size_t)c * ps;
+        const double complex *Sc = op->slab + (size_t)c * cs;
+        for (size_t a = 0; a < n[0]; a++) {
+            double complex *row = Pc + a * rowlen;
+            for (size_t b = 0; b < n[1]; b++) {
+                memcpy(row + b * zb, Sc + (a * n[1] + b) * pz + c0, nt * sizeof *row);
+            }
+            memset(row + n[1] * zb, 0, (p[1] - n[1]) * zb * sizeof *row);
+        }
+        memset(Pc + n[0] * rowlen, 0, (p[0] - n[0]) * rowlen * sizeof *Pc);
+    }
+    fftw_complex *f = (fftw_complex *)P;
+    fftw_execute_dft(op->fy[rem], f, f);
+    fftw_execute_dft(op->fx[rem], f, f);
+    op->product(op, P, c0, nt);
     fftw_execute_dft(op->bx[rem], f, f);
     fftw_execute_dft(op->by[rem], f, f);
     for (int c = 0; c < 3; c++) {
         const double complex *Pc = P + (size_t)c * ps;
         double complex *Sc = op->slab + (size_t)c * cs;
         for (size_t a = 0; a < n[0]; a++)
-            for (size_t b = 0; b < n[1]; b++) {
-                double complex *dst = Sc + (a * n[1] + b) * pz + c0;
-                const double complex *src = Pc + a * rowlen + b * zb;
-                for (size_t t = 0; t < nt; t++)
-                    dst[t] = src[t];
-            }
+            for (size_t b = 0; b < n[1]; b++)
+                memcpy(Sc + (a * n[1] + b) * pz + c0, Pc + a * rowlen + b * zb,
+                       nt * sizeof *Sc);
     }
 }
 

@@ -19,7 +19,7 @@
 #define TOL_FFT 1e-12
 #define SPACING 2.385e-8 /* m */
 
-typedef enum { SHAPE_FULL, SHAPE_HALF, SHAPE_SPHERE_HOLES } shape_kind;
+typedef enum { SHAPE_FULL, SHAPE_HALF, SHAPE_SPHERE_HOLES, SHAPE_SPARSE } shape_kind;
 
 static dpz_grid *make_grid(size_t nx, size_t ny, size_t nz, shape_kind shape)
 {
@@ -37,6 +37,11 @@ static dpz_grid *make_grid(size_t nx, size_t ny, size_t nz, shape_kind shape)
                            z = l - 0.5 * (nz - 1.0);
                     on = x * x + y * y + z * z <= 3.2 * 3.2 && (i + j + l) % 5 != 0;
                 }
+                /* A few voxels spread over a large box (opposite corners occupied), so
+                 * that the dense reference stays small while the padded grid is big. */
+                if (shape == SHAPE_SPARSE)
+                    on = (7 * i + 13 * j + 29 * l) % 31 == 0 ||
+                         (i + 1 == nx && j + 1 == ny && l + 1 == nz);
                 /* Two materials so that the diagonal is not uniform. */
                 g->label[dpz_grid_index(g, i, j, l)] =
                     on ? (uint8_t)(1 + (i + j) % 2) : 0;
@@ -83,7 +88,7 @@ static void compare_one(const dpz_grid *g, double k, dpz_dipole_model model, int
     dpz_err err;
     dpz_fftop *op = NULL;
     dpz_denseop *dn = NULL;
-    dpz_op_opts opts = {threads, DPZ_PLAN_ESTIMATE};
+    dpz_op_opts opts = {threads, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO};
     assert_int_equal(dpz_fftop_create(&op, g, k, model, ia, &opts, &err), DPZ_OK);
     assert_int_equal(dpz_denseop_create(&dn, g, k, model, ia, 0, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_apply(op, x, yf, &err), DPZ_OK);
@@ -194,6 +199,66 @@ static void test_fftop_matches_dense_sphere_holes(void **state)
 
 /* x^T A y = y^T A x: the discrete-dipole matrix is complex symmetric (reciprocity;
  * Draine 1988, sec. II). */
+/* A large padded plane (60 x 56) makes the operator process fewer z frequencies per block
+ * (8, with a remainder block of 2 of the 18): still the direct sum, with 1 and 2 threads
+ * and both kernel products. */
+static void test_fftop_matches_dense_small_blocks(void **state)
+{
+    (void)state;
+    dpz_grid *g = make_grid(30, 28, 9, SHAPE_SPARSE);
+    assert_true(g->n_occ > 100 && g->n_occ < 400);
+    compare_one(g, 0.3 / SPACING, DPZ_DIPOLE_CMRR, 1);
+    compare_one(g, 0.3 / SPACING, DPZ_DIPOLE_IGT, 2);
+    dpz_grid_destroy(g);
+}
+
+/* The AVX2/FMA kernel product (chosen automatically where the CPU has it) against the
+ * portable one: the same sums, rounded differently (FMA), so equal to a few ulps of the
+ * largest entry; on a CPU with AVX2 and FMA the automatic choice must be the AVX2 one. */
+static void test_fftop_simd_matches_generic(void **state)
+{
+    (void)state;
+    const size_t dims[][3] = {{7, 7, 7}, {4, 3, 1}, {30, 28, 9}, {2, 2, 11}};
+    const shape_kind shapes[] = {SHAPE_SPHERE_HOLES, SHAPE_HALF, SHAPE_SPARSE, SHAPE_HALF};
+    for (int c = 0; c < 4; c++) {
+        dpz_grid *g = make_grid(dims[c][0], dims[c][1], dims[c][2], shapes[c]);
+        size_t n = 3 * g->n_occ;
+        double complex *ia = malloc(g->n_occ * sizeof *ia);
+        double complex *x = malloc(n * sizeof *x), *ya = malloc(n * sizeof *ya),
+                       *yg = malloc(n * sizeof *yg);
+        double k = 0.4 / SPACING;
+        inv_alpha_for(g, k, DPZ_DIPOLE_LDR, ia);
+        uint64_t seed = 0x51dd + (uint64_t)c;
+        random_vec(x, n, &seed);
+        dpz_op_opts oa = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO},
+                    og = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_GENERIC};
+        dpz_fftop *a = NULL, *gen = NULL;
+        dpz_err err;
+        assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_LDR, ia, &oa, &err), DPZ_OK);
+        assert_int_equal(dpz_fftop_create(&gen, g, k, DPZ_DIPOLE_LDR, ia, &og, &err),
+                         DPZ_OK);
+        assert_string_equal(dpz_fftop_product_name(gen), "generic");
+#if defined(__x86_64__) && defined(__GNUC__)
+        __builtin_cpu_init();
+        if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma"))
+            assert_string_equal(dpz_fftop_product_name(a), "avx2-fma");
+#endif
+        assert_int_equal(dpz_fftop_apply_green(a, x, ya, &err), DPZ_OK);
+        assert_int_equal(dpz_fftop_apply_green(gen, x, yg, &err), DPZ_OK);
+        double scale = max_abs(yg, n);
+        assert_true(scale > 0.0);
+        for (size_t i = 0; i < n; i++)
+            assert_cclose_abs(ya[i], yg[i], 1e-14, scale);
+        dpz_fftop_destroy(a);
+        dpz_fftop_destroy(gen);
+        free(ia);
+        free(x);
+        free(ya);
+        free(yg);
+        dpz_grid_destroy(g);
+    }
+}
+
 static void test_fftop_complex_symmetric(void **state)
 {
     (void)state;
@@ -250,7 +315,7 @@ static void test_fftop_threads_agree(void **state)
     random_vec(x, n, &seed);
     dpz_err err;
     dpz_fftop *a = NULL, *b = NULL;
-    dpz_op_opts o1 = {1, DPZ_PLAN_ESTIMATE}, o2 = {2, DPZ_PLAN_MEASURE};
+    dpz_op_opts o1 = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO}, o2 = {2, DPZ_PLAN_MEASURE, DPZ_SIMD_AUTO};
     assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_CMRR, ia, &o1, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_create(&b, g, k, DPZ_DIPOLE_CMRR, ia, &o2, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_apply(a, x, y1, &err), DPZ_OK);
@@ -263,7 +328,7 @@ static void test_fftop_threads_agree(void **state)
     for (size_t i = 0; i < n; i++)
         assert_cclose_abs(y2[i], y1[i], TOL_FFT, scale);
     dpz_fftop *c3 = NULL;
-    dpz_op_opts o3 = {3, DPZ_PLAN_ESTIMATE};
+    dpz_op_opts o3 = {3, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO};
     assert_int_equal(dpz_fftop_create(&c3, g, k, DPZ_DIPOLE_CMRR, ia, &o3, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_apply(c3, x, y2, &err), DPZ_OK);
     assert_memory_equal(y1, y2, n * sizeof *y1);
@@ -279,7 +344,7 @@ static void test_fftop_threads_agree(void **state)
 
 /* Padded sizes are even, FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1 (1 for a
  * single layer); the memory estimate covers the z-transformed slab (3 nx ny pz points),
- * one plane buffer per thread (3 px py zb points, zb <= 16 z frequencies) and the six
+ * one plane buffer per thread (3 px (py + 1) zb points, zb <= 16 z frequencies) and the six
  * kernel components on the non-negative frequency octant (p/2 + 1 per axis), plus
  * per-voxel data. */
 static void test_fftop_padding_and_memory(void **state)
@@ -299,7 +364,9 @@ static void test_fftop_padding_and_memory(void **state)
     assert_int_equal(p[1], 24);
     assert_int_equal(p[2], 1);
     size_t need = dpz_fftop_memory_need(g);
-    size_t slab = 3 * 6 * 11 * 1, plane = 3 * 12 * 24 * 1;
+    /* The plane buffer's x rows hold py + 1 frequency groups (one unused, against cache
+     * set conflicts). */
+    size_t slab = 3 * 6 * 11 * 1, plane = 3 * 12 * (24 + 1) * 1;
     size_t octant = (12 / 2 + 1) * (24 / 2 + 1) * 1;
     size_t grids = (slab + plane + 6 * octant) * sizeof(double complex);
     assert_true(need >= grids + g->n_occ * (sizeof(size_t) + 4 * sizeof(double complex)));
@@ -528,6 +595,8 @@ int main(void)
         cmocka_unit_test(test_fftop_matches_dense_line),
         cmocka_unit_test(test_fftop_matches_dense_layers),
         cmocka_unit_test(test_fftop_matches_dense_sphere_holes),
+        cmocka_unit_test(test_fftop_matches_dense_small_blocks),
+        cmocka_unit_test(test_fftop_simd_matches_generic),
         cmocka_unit_test(test_fftop_complex_symmetric),
         cmocka_unit_test(test_fftop_threads_agree),
         cmocka_unit_test(test_fftop_padding_and_memory),

@@ -57,7 +57,7 @@ static void measured_product(double complex *y, size_t *n_out)
     uint64_t seed = 2385;
     for (size_t i = 0; i < n; i++)
         x[i] = CMPLX(dpz_test_rand(&seed), dpz_test_rand(&seed));
-    dpz_op_opts o = {1, DPZ_PLAN_MEASURE};
+    dpz_op_opts o = {1, DPZ_PLAN_MEASURE, DPZ_SIMD_AUTO};
     dpz_fftop *op = NULL;
     assert_int_equal(dpz_fftop_create(&op, g, k, DPZ_DIPOLE_CMRR, ia, &o, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_apply(op, x, y, &err), DPZ_OK);

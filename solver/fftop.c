@@ -140,9 +140,10 @@ static int make_layout(const dpz_grid *g, layout *L)
      * elements of one x line fall into a few cache sets and the x passes thrash
      * (measured: 5.0 s against 1.1 s per apply at 128^3, 0.95 against 0.55 ms at 16^3).
      * The block of z frequencies is the largest power of two <= ZBLOCK whose plane buffer
-     * fits in PLANE_BUDGET bytes, at least 2 (FFTW vectorizes over the block). */
+     * fits in PLANE_BUDGET bytes, but at least 4, so that each visit of a slab line moves
+     * a whole 64-byte cache line (measured at 128^3: 4 faster than 2, and 2 than 1). */
     L->zb = ZBLOCK;
-    while (L->zb > 2 && 3 * L->p[0] * (L->p[1] + 1) * L->zb * sizeof(double complex) >
+    while (L->zb > 4 && 3 * L->p[0] * (L->p[1] + 1) * L->zb * sizeof(double complex) >
                             PLANE_BUDGET)
         L->zb /= 2;
     if (L->zb > L->p[2])

@@ -597,22 +597,42 @@ static inline void cmul3(const double *k6, double sxy, double sxz, double syz, d
     memcpy(z, &oz, sizeof oz);
 }
 
+/* What both kernel products read: the folded frequency indices and signs per axis, the
+ * octant kernel (stride hxy between z frequencies, hy between x rows) and the three
+ * components of the plane block P. */
+typedef struct kview {
+    const size_t *rx, *ry, *rz;
+    const double *sx, *sy, *sz, *K;
+    size_t px, py, hy, hxy, zb, rowlen;
+    double *b0, *b1, *b2;
+} kview;
+
+static kview kernel_view(const dpz_fftop *op, double complex *P)
+{
+    const size_t *p = op->p;
+    kview v = {op->refl,        op->refl + p[0], op->refl + p[0] + p[1],
+               op->sign,        op->sign + p[0], op->sign + p[0] + p[1],
+               (const double *)op->kern,
+               p[0],            p[1],            op->h[1],
+               op->h[0] * op->h[1], op->zb,      op->rs,
+               (double *)P,     (double *)(P + op->ps), (double *)(P + 2 * op->ps)};
+    return v;
+}
+
 /* The 3x3 symmetric tensor product for the nt frequencies c0.. of a plane block P; the
  * kernel is stored on the octant and unfolded with the parity of each component (xy odd
  * in x and y, and so on). Portable version (SSE2 on x86-64). */
 static void product_generic(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
 {
-    const size_t *p = op->p, *h = op->h;
-    size_t zb = op->zb, ps = op->ps, rowlen = op->rs, hxy = h[0] * h[1];
-    const size_t *rx = op->refl, *ry = op->refl + p[0], *rz = op->refl + p[0] + p[1];
-    const double *sx = op->sign, *sy = op->sign + p[0], *sz = op->sign + p[0] + p[1];
-    const double *K = (const double *)op->kern;
-    double *b0 = (double *)P, *b1 = (double *)(P + ps), *b2 = (double *)(P + 2 * ps);
-    for (size_t a = 0; a < p[0]; a++)
-        for (size_t b = 0; b < p[1]; b++) {
-            size_t row = rx[a] * h[1] + ry[b];
+    kview v = kernel_view(op, P);
+    const size_t *rx = v.rx, *ry = v.ry, *rz = v.rz, hxy = v.hxy;
+    const double *sx = v.sx, *sy = v.sy, *sz = v.sz, *K = v.K;
+    double *b0 = v.b0, *b1 = v.b1, *b2 = v.b2;
+    for (size_t a = 0; a < v.px; a++)
+        for (size_t b = 0; b < v.py; b++) {
+            size_t row = rx[a] * v.hy + ry[b];
             double sab = sx[a] * sy[b];
-            size_t q0 = a * rowlen + b * zb;
+            size_t q0 = a * v.rowlen + b * v.zb;
             for (size_t t = 0; t < nt; t++) {
                 size_t c = c0 + t;
                 cmul3(K + 12 * (rz[c] * hxy + row), sab, sx[a] * sz[c], sy[b] * sz[c],
@@ -632,19 +652,17 @@ static void product_generic(const dpz_fftop *op, double complex *P, size_t c0, s
 __attribute__((target("avx2,fma"))) static void
 product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
 {
-    const size_t *p = op->p, *h = op->h;
-    size_t zb = op->zb, ps = op->ps, rowlen = op->rs, hxy = h[0] * h[1];
-    const size_t *rx = op->refl, *ry = op->refl + p[0], *rz = op->refl + p[0] + p[1];
-    const double *sx = op->sign, *sy = op->sign + p[0], *sz = op->sign + p[0] + p[1];
-    const double *K = (const double *)op->kern;
-    double *b0 = (double *)P, *b1 = (double *)(P + ps), *b2 = (double *)(P + 2 * ps);
+    kview v = kernel_view(op, P);
+    const size_t *rx = v.rx, *ry = v.ry, *rz = v.rz, hxy = v.hxy;
+    const double *sx = v.sx, *sy = v.sy, *sz = v.sz, *K = v.K;
+    double *b0 = v.b0, *b1 = v.b1, *b2 = v.b2;
     size_t npair = nt / 2;
-    for (size_t a = 0; a < p[0]; a++)
-        for (size_t b = 0; b < p[1]; b++) {
-            size_t row = rx[a] * h[1] + ry[b];
+    for (size_t a = 0; a < v.px; a++)
+        for (size_t b = 0; b < v.py; b++) {
+            size_t row = rx[a] * v.hy + ry[b];
             double sab = sx[a] * sy[b];
             const __m256d vab = _mm256_set1_pd(sab);
-            size_t q0 = a * rowlen + b * zb;
+            size_t q0 = a * v.rowlen + b * v.zb;
             for (size_t t2 = 0; t2 < npair; t2++) {
                 size_t t = 2 * t2, c = c0 + t;
                 const double *k0 = K + 12 * (rz[c] * hxy + row),
@@ -665,23 +683,22 @@ product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
                        *pz = b2 + 2 * (q0 + t);
                 __m256d X = _mm256_loadu_pd(px), Y = _mm256_loadu_pd(py),
                         Z = _mm256_loadu_pd(pz);
-                __m256d Xs = _mm256_permute_pd(X, 0x5), Ys = _mm256_permute_pd(Y, 0x5),
-                        Zs = _mm256_permute_pd(Z, 0x5);
-                __m256d xr = _mm256_fmadd_pd(
-                    gr[2], Z, _mm256_fmadd_pd(gr[1], Y, _mm256_mul_pd(gr[0], X)));
-                __m256d xi = _mm256_fmadd_pd(
-                    gi[2], Zs, _mm256_fmadd_pd(gi[1], Ys, _mm256_mul_pd(gi[0], Xs)));
-                __m256d yr = _mm256_fmadd_pd(
-                    gr[4], Z, _mm256_fmadd_pd(gr[3], Y, _mm256_mul_pd(gr[1], X)));
-                __m256d yi = _mm256_fmadd_pd(
-                    gi[4], Zs, _mm256_fmadd_pd(gi[3], Ys, _mm256_mul_pd(gi[1], Xs)));
-                __m256d zr = _mm256_fmadd_pd(
-                    gr[5], Z, _mm256_fmadd_pd(gr[4], Y, _mm256_mul_pd(gr[2], X)));
-                __m256d zi = _mm256_fmadd_pd(
-                    gi[5], Zs, _mm256_fmadd_pd(gi[4], Ys, _mm256_mul_pd(gi[2], Xs)));
-                _mm256_storeu_pd(px, _mm256_addsub_pd(xr, xi));
-                _mm256_storeu_pd(py, _mm256_addsub_pd(yr, yi));
-                _mm256_storeu_pd(pz, _mm256_addsub_pd(zr, zi));
+                /* Output r sums components gc[r][0..2] of g times x, y, z. */
+                static const int gc[3][3] = {{0, 1, 2}, {1, 3, 4}, {2, 4, 5}};
+                const __m256d V[3] = {X, Y, Z},
+                              Vs[3] = {_mm256_permute_pd(X, 0x5), _mm256_permute_pd(Y, 0x5),
+                                       _mm256_permute_pd(Z, 0x5)};
+                double *dst[3] = {px, py, pz};
+                for (int r = 0; r < 3; r++) {
+                    const int *q = gc[r];
+                    __m256d re = _mm256_fmadd_pd(
+                        gr[q[2]], V[2],
+                        _mm256_fmadd_pd(gr[q[1]], V[1], _mm256_mul_pd(gr[q[0]], V[0])));
+                    __m256d im = _mm256_fmadd_pd(
+                        gi[q[2]], Vs[2],
+                        _mm256_fmadd_pd(gi[q[1]], Vs[1], _mm256_mul_pd(gi[q[0]], Vs[0])));
+                    _mm256_storeu_pd(dst[r], _mm256_addsub_pd(re, im));
+                }
             }
             if (nt % 2) {
                 size_t t = nt - 1, c = c0 + t;

@@ -1,14 +1,14 @@
 /* sweep.c: `dipolize sweep FILE MATERIALS --wavelengths LIST -o DIR`: the 6x6 tensor,
  * cross sections and diagnostics over a wavelength list, written into DIR as described
  * in docs/sweep-format.md, crash-safe: every finished wavelength is appended to the
- * tables and flushed to disk (fsync) before the next one starts, and summary.json is
- * replaced atomically, so a killed run loses at most the wavelength in progress and
- * `--resume` continues it. `--shard I/N` computes every N-th wavelength starting at I;
+ * tables, and commits (fsync of the tables, the restart state, summary.json replaced
+ * atomically last) follow often enough that a killed run loses little and rarely enough
+ * that they cost at most about 5% of the run; `--resume` continues from the last. `--shard I/N` computes every N-th wavelength starting at I;
  * under an MPI launcher (built with -DDPZ_MPI=ON) rank 0 hands wavelengths out to the
  * other ranks (mpi_farm.c).
  *
  * Determinism: each wavelength's solves start from the previous wavelength's solutions
- * (warm start). The solutions are kept in DIR/restart.<0|1>.bin after every wavelength,
+ * (warm start). The solutions are kept in DIR/restart.<0|1>.bin at every commit,
  * so that a resumed run continues from the very same initial guesses and writes tables
  * byte-identical to an uninterrupted run with the same thread count. */
 #include "dpz_sweep.h"
@@ -77,8 +77,8 @@ const cli_cmd cli_cmd_sweep = {
     "6x6 polarizability, cross sections and diagnostics over a wavelength list, into "
     "a directory",
     "Writes DIR/alpha.csv, cross_sections.csv, diagnostics.csv, static.json and\n"
-    "summary.json (columns: docs/sweep-format.md). Each finished wavelength is flushed\n"
-    "to disk before the next starts; a killed run continues with --resume. Each\n"
+    "summary.json (columns: docs/sweep-format.md). Finished wavelengths are flushed to\n"
+    "disk in commits; a killed run continues with --resume from the last. Each\n"
     "wavelength's solves start from the previous wavelength's solutions. On a terminal\n"
     "a progress line shows the wavelength, iterations, residual and the time left; one\n"
     "line per wavelength otherwise; --quiet for none. Under mpirun (MPI build), rank 0\n"
@@ -314,6 +314,10 @@ struct dpz__sweep_out {
     int any_failed;     /* some wavelength (or the static solve) did not converge */
     int progress;       /* 0 quiet, 1 one line per wavelength, 2 terminal line */
     int lock_fd;        /* DIR/.lock, locked while this process writes DIR; -1 none */
+    size_t committed;   /* shard positions in the summary.json on disk */
+    unsigned commits;   /* commits in this session (restart slot parity) */
+    double last_commit; /* when the last commit ended, s (monotonic; 0: none yet) */
+    double commit_cost; /* how long it took, s */
 };
 
 static dpz_status write_summary(dpz__sweep_out *o, dpz_err *err)
@@ -330,20 +334,21 @@ static dpz_status write_summary(dpz__sweep_out *o, dpz_err *err)
     return st;
 }
 
-/* Restart state: the six solution vectors after shard position `j`, in
- * restart.<j mod 2>.bin (two files, so that the one matching the last position recorded
- * in summary.json is never being replaced). Layout: 8 bytes "DPZWARM1", uint64 position
+/* Restart state: the six solution vectors after the last shard position of a commit, in
+ * restart.<commit mod 2>.bin (two files, so that the one matching the last position
+ * recorded in summary.json is never being replaced; a resume takes the one whose header
+ * matches). Layout: 8 bytes "DPZWARM1", uint64 position
  * (full list), uint64 n_vec, double lambda0_m, then 6 * n_vec complex doubles. With
  * --refine n_vec spans every level (coarse to fine, c->warm_off), so each level's
  * warm-start chain survives a kill as well. */
 static const char warm_magic[8] = {'D', 'P', 'Z', 'W', 'A', 'R', 'M', '1'};
 
-static dpz_status write_restart(const char *dir, size_t j, uint64_t position,
+static dpz_status write_restart(const char *dir, unsigned slot, uint64_t position,
                                 double lambda, uint64_t n_vec,
                                 double complex *const warm[6], dpz_err *err)
 {
     char name[32];
-    snprintf(name, sizeof name, "restart.%zu.bin", j % 2);
+    snprintf(name, sizeof name, "restart.%u.bin", slot % 2);
     const void *parts[10] = {warm_magic, &position, &n_vec, &lambda};
     size_t lens[10] = {8, 8, 8, 8};
     for (int i = 0; i < 6; i++) {
@@ -353,13 +358,13 @@ static dpz_status write_restart(const char *dir, size_t j, uint64_t position,
     return dpz_sweep_write_atomic_parts(dir, name, parts, lens, 10, err);
 }
 
-/* Loads the restart state of shard position `j` if it is there and matches; 0 on
- * success, -1 otherwise (the caller then starts from zero). */
-static int read_restart(const char *dir, size_t j, uint64_t position, double lambda,
-                        uint64_t n_vec, double complex *warm[6])
+/* Loads the restart state written after full-list position `position` from the slot
+ * that holds it; 0 on success, -1 otherwise (the caller then starts from zero). */
+static int read_restart_slot(const char *dir, int slot, uint64_t position, double lambda,
+                             uint64_t n_vec, double complex *warm[6])
 {
     char path[4096];
-    snprintf(path, sizeof path, "%s/restart.%zu.bin", dir, j % 2);
+    snprintf(path, sizeof path, "%s/restart.%d.bin", dir, slot);
     FILE *f = fopen(path, "rb");
     if (!f)
         return -1;
@@ -377,6 +382,15 @@ static int read_restart(const char *dir, size_t j, uint64_t position, double lam
         for (int i = 0; i < 6; i++)
             memset(warm[i], 0, (size_t)n_vec * sizeof(double complex));
     return ok ? 0 : -1;
+}
+
+static int read_restart(const char *dir, uint64_t position, double lambda, uint64_t n_vec,
+                        double complex *warm[6])
+{
+    for (int slot = 0; slot < 2; slot++)
+        if (read_restart_slot(dir, slot, position, lambda, n_vec, warm) == 0)
+            return 0;
+    return -1;
 }
 
 static void remove_restart(const char *dir)
@@ -494,8 +508,8 @@ static int open_tables(dpz__sweep_out *o)
     return CLI_OK;
 }
 
-static dpz_status append_fsync(int fd, const char *path, const char *buf, size_t len,
-                               dpz_err *err)
+static dpz_status append_all(int fd, const char *path, const char *buf, size_t len,
+                             dpz_err *err)
 {
     while (len > 0) {
         ssize_t w = write(fd, buf, len);
@@ -508,9 +522,6 @@ static dpz_status append_fsync(int fd, const char *path, const char *buf, size_t
         buf += w;
         len -= (size_t)w;
     }
-    if (fsync(fd) != 0)
-        return dpz_err_set(err, DPZ_EIO, "sweep: fsync of %s failed: %s", path,
-                           strerror(errno));
     return DPZ_OK;
 }
 
@@ -614,7 +625,7 @@ static int resume_dir(dpz__sweep_ctx *c, dpz__sweep_out *o, const char *fresh_te
     cJSON *mine = cJSON_DetachItemFromObjectCaseSensitive(old, "results");
     cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "results", mine);
     o->results = mine;
-    o->done = o->done_before = k;
+    o->done = o->done_before = o->committed = k;
     cJSON_Delete(old);
     return CLI_OK;
 }
@@ -897,6 +908,45 @@ static void progress_start(const dpz__sweep_ctx *c, const dpz__sweep_out *o, siz
     fflush(stderr);
 }
 
+/* A commit is repeated once COMMIT_SPACING times its own last duration has passed, so that
+ * committing costs at most about 1/COMMIT_SPACING of the run whatever the number of
+ * wavelengths (summary.json grows with every result: rewriting it after each of 4000
+ * wavelengths of a small particle took two thirds of the run, by perf). */
+#define COMMIT_SPACING 20.0
+
+/* Makes the finished wavelengths durable together: fsync of the three tables, the restart
+ * state after the last finished position (`warm`, may be NULL: none), then summary.json
+ * atomically (the commit point a resume trusts); the restart files go once the shard is
+ * complete. */
+dpz_status dpz__sweep_commit(dpz__sweep_ctx *c, dpz__sweep_out *o,
+                             double complex *const warm[6], dpz_err *err)
+{
+    double t0 = now_s();
+    dpz_status st;
+    for (int t = 0; t < DPZ_TABLE_COUNT; t++)
+        if (fsync(o->fd[t]) != 0)
+            return dpz_err_set(err, DPZ_EIO, "sweep: fsync of %s/%s failed: %s", o->dir,
+                               dpz_sweep_table_file((dpz_table_kind)t), strerror(errno));
+    int finished = o->done == c->shard_size;
+    if (warm && !finished && o->done > 0) {
+        size_t p = dpz_sweep_shard_position(o->done - 1, c->shard_index, c->shard_count);
+        if ((st = write_restart(o->dir, o->commits, p, c->wl[p], c->n_vec, warm, err)) !=
+            DPZ_OK)
+            return st;
+    }
+    if (finished)
+        cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "finished", cJSON_CreateTrue());
+    if ((st = write_summary(o, err)) != DPZ_OK)
+        return st;
+    if (finished)
+        remove_restart(o->dir);
+    o->commits++;
+    o->committed = o->done;
+    o->last_commit = now_s();
+    o->commit_cost = o->last_commit - t0;
+    return DPZ_OK;
+}
+
 dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                              const dpz_sweep_result *r, double complex *const warm[6],
                              dpz_err *err)
@@ -909,14 +959,9 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                  dpz_sweep_table_file((dpz_table_kind)t));
         if (len == 0)
             return dpz_err_set(err, DPZ_ELIMIT, "sweep: rows too long for %s", path);
-        if ((st = append_fsync(o->fd[t], path, buf, len, err)) != DPZ_OK)
+        if ((st = append_all(o->fd[t], path, buf, len, err)) != DPZ_OK)
             return st;
     }
-    size_t j = o->done;
-    if (warm && j + 1 < c->shard_size &&
-        (st = write_restart(o->dir, j, r->position, r->lambda0_m, c->n_vec, warm, err)) !=
-            DPZ_OK)
-        return st;
     cJSON *e = cJSON_CreateObject();
     if (!e)
         return dpz_err_set(err, DPZ_ENOMEM, "sweep: out of memory");
@@ -934,13 +979,10 @@ dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
     o->done++;
     if (!r->converged)
         o->any_failed = 1;
-    if (o->done == c->shard_size)
-        cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "finished",
-                                               cJSON_CreateTrue());
-    if ((st = write_summary(o, err)) != DPZ_OK)
-        return st;
-    if (o->done == c->shard_size)
-        remove_restart(o->dir);
+    if (o->done == c->shard_size || o->last_commit == 0.0 ||
+        now_s() - o->last_commit >= COMMIT_SPACING * o->commit_cost)
+        if ((st = dpz__sweep_commit(c, o, warm, err)) != DPZ_OK)
+            return st;
     progress(c, o, r);
     return DPZ_OK;
 }
@@ -1113,6 +1155,14 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     dpz_status st = DPZ_OK;
     if (size > 1) {
         st = dpz__mpi_farm(c, &o, o.done, &e);
+        if (o.done > o.committed) {
+            dpz_err ce;
+            dpz_status cs = dpz__sweep_commit(c, &o, NULL, &ce);
+            if (st == DPZ_OK && cs != DPZ_OK) {
+                st = cs;
+                e = ce;
+            }
+        }
     } else if (o.done < c->shard_size) {
         double complex *warm[6] = {NULL};
         for (int i = 0; i < 6; i++) {
@@ -1126,7 +1176,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
         if (st == DPZ_OK && o.done > 0) {
             size_t jp = o.done - 1,
                    pp = dpz_sweep_shard_position(jp, c->shard_index, c->shard_count);
-            if (read_restart(o.dir, jp, pp, c->wl[pp], c->n_vec, warm) != 0 && o.progress)
+            if (read_restart(o.dir, pp, c->wl[pp], c->n_vec, warm) != 0 && o.progress)
                 fprintf(stderr,
                         "dipolize: sweep: no restart state for wavelength %zu; the "
                         "next solves start from zero (results agree with an "
@@ -1140,6 +1190,15 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
             st = dpz__sweep_compute(c, p, warm, &r, &e);
             if (st == DPZ_OK)
                 st = dpz__sweep_record(c, &o, &r, warm, &e);
+        }
+        /* A failure leaves recorded wavelengths since the last commit: commit them. */
+        if (o.done > o.committed) {
+            dpz_err ce;
+            dpz_status cs = dpz__sweep_commit(c, &o, warm, &ce);
+            if (st == DPZ_OK && cs != DPZ_OK) {
+                st = cs;
+                e = ce;
+            }
         }
         for (int i = 0; i < 6; i++)
             free(warm[i]);

@@ -51,12 +51,18 @@ dpz_status dpz__sweep_compute(dpz__sweep_ctx *c, size_t position, double complex
 /* Rank 0's view of the output directory. */
 typedef struct dpz__sweep_out dpz__sweep_out;
 
-/* Records one finished wavelength: appends its rows to the three tables (fsync), writes
- * the restart state (`warm`, may be NULL: none) and rewrites summary.json atomically;
- * prints the progress line. Results must arrive in shard order. */
+/* Records one finished wavelength: appends its rows to the three tables and its entry to
+ * the summary, commits (dpz__sweep_commit) after the first wavelength of a session, at
+ * the last and whenever 20 times the last commit's duration has passed, and prints the
+ * progress line. Results must arrive in shard order. `warm` (may be NULL: none) holds the
+ * solutions after this wavelength, for the restart state. */
 dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                              const dpz_sweep_result *r, double complex *const warm[6],
                              dpz_err *err);
+/* Makes every recorded wavelength durable: fsync of the tables, the restart state from
+ * `warm` (may be NULL), summary.json replaced atomically last (what a resume trusts). */
+dpz_status dpz__sweep_commit(dpz__sweep_ctx *c, dpz__sweep_out *o,
+                             double complex *const warm[6], dpz_err *err);
 
 /* ---- MPI (mpi_farm.c); without DPZ_HAVE_MPI every rank is rank 0 of 1 ------------- */
 /* Initialises MPI when the program was started by an MPI launcher (and built with MPI);

@@ -6,14 +6,20 @@
  *            as a naive operator would do), filled cubes; medians of interleaved
  *            repetitions;
  *   scaling  apply time against N = n^3 for cubes of edge 16, 32, 64 (and 128 with
- * --full), fitted exponent e of t ~ N^e (least squares in log-log) and the exponent left
- * after dividing by log N (t ~ N^e' log N); threads  apply with 2 threads against 1
- * thread on the 64^3 cube, interleaved, wall clock (needs an otherwise idle machine to
- * mean anything); One-thread times are CPU times of the thread (CLOCK_THREAD_CPUTIME_ID),
- * which on a loaded machine exclude waiting for a core (they still include cache
- * interference). memory   dpz_fftop_memory_need / voxel. Usage: bench_perf [--full]
- * [repetitions]   (default 7 repetitions) Output: lines "key value" after a
- * human-readable table, for benchmarks/run.sh. */
+ *            --full), fitted exponent e of t ~ N^e (least squares in log-log) and the
+ *            exponent left after dividing by log N (t ~ N^e' log N);
+ *   threads  apply with 2 threads against 1 thread on the 64^3 cube, interleaved, wall
+ *            clock (needs an otherwise idle machine to mean anything);
+ *   product  apply with the portable kernel product against the automatic choice
+ *            (AVX2/FMA where the CPU has it), 32^3;
+ *   memory   dpz_fftop_memory_need / voxel.
+ * One-thread times are CPU times of the thread (CLOCK_THREAD_CPUTIME_ID), which on a
+ * loaded machine exclude waiting for a core (they still include cache interference).
+ *
+ * Usage: bench_perf [--full] [--measure] [repetitions]   (default 7 repetitions;
+ * --measure: FFTW_MEASURE plans for the operators and the reference transforms)
+ *        bench_perf --once N   (one apply and one reference, for callgrind)
+ * Output: lines "key value" after a human-readable table, for benchmarks/run.sh. */
 #include <complex.h>
 #include <math.h>
 #include <stdio.h>
@@ -73,6 +79,10 @@ static dpz_grid *cube(size_t n, double d)
 static dpz_fftop *make_op_simd(const dpz_grid *g, int threads, dpz_simd simd,
                                double complex **ia_out);
 
+/* Planner effort of the operators and of the reference transforms (--measure). */
+static dpz_plan plan_effort = DPZ_PLAN_ESTIMATE;
+static unsigned fftw_effort = FFTW_ESTIMATE;
+
 static dpz_fftop *make_op(const dpz_grid *g, int threads, double complex **ia_out)
 {
     return make_op_simd(g, threads, DPZ_SIMD_AUTO, ia_out);
@@ -88,7 +98,7 @@ static dpz_fftop *make_op_simd(const dpz_grid *g, int threads, dpz_simd simd,
     double complex *ia = malloc(g->n_occ * sizeof *ia);
     dpz_err err;
     dpz_fftop *op = NULL;
-    dpz_op_opts o = {threads, DPZ_PLAN_ESTIMATE, simd};
+    dpz_op_opts o = {threads, plan_effort, simd};
     if (!ia ||
         dpz_operator_inv_alpha(g, eps, 1.0, k, DPZ_DIPOLE_CMRR, ia, &err) != DPZ_OK ||
         dpz_fftop_create(&op, g, k, DPZ_DIPOLE_CMRR, ia, &o, &err) != DPZ_OK) {
@@ -121,9 +131,9 @@ static result measure(size_t n, int reps)
     fftw_complex *buf = fftw_malloc(3 * ptot * sizeof *buf);
     int dims[3] = {(int)p[0], (int)p[1], (int)p[2]};
     fftw_plan f = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_FORWARD, FFTW_ESTIMATE);
+                                     (int)ptot, FFTW_FORWARD, fftw_effort);
     fftw_plan b = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_BACKWARD, FFTW_ESTIMATE);
+                                     (int)ptot, FFTW_BACKWARD, fftw_effort);
     memset(buf, 0, 3 * ptot * sizeof *buf);
     double *ta = malloc((size_t)reps * sizeof *ta),
            *tf = malloc((size_t)reps * sizeof *tf),
@@ -256,6 +266,10 @@ int main(int argc, char **argv)
     for (int i = 1; i < argc; i++) {
         if (strcmp(argv[i], "--full") == 0)
             full = 1;
+        else if (strcmp(argv[i], "--measure") == 0) {
+            plan_effort = DPZ_PLAN_MEASURE;
+            fftw_effort = FFTW_MEASURE;
+        }
         else if (strcmp(argv[i], "--once") == 0 && i + 1 < argc)
             return once((size_t)atoi(argv[i + 1]));
         else
@@ -268,9 +282,8 @@ int main(int argc, char **argv)
     const size_t sizes[] = {16, 32, 64, 128};
     size_t ns = full ? 4 : 3;
     result res[4];
-    printf("# filled cubes, 1 thread, FFTW_ESTIMATE, %d interleaved repetitions "
-           "(medians)\n",
-           reps);
+    printf("# filled cubes, 1 thread, %s, %d interleaved repetitions (medians)\n",
+           plan_effort == DPZ_PLAN_MEASURE ? "FFTW_MEASURE" : "FFTW_ESTIMATE", reps);
     printf("# %5s %10s %10s %10s %7s %9s\n", "edge", "voxels", "apply_ms", "fft6_ms",
            "ratio", "bytes/vox");
     for (size_t s = 0; s < ns; s++) {

@@ -31,6 +31,11 @@ log "machine: $(nproc) cores, load $(cut -d' ' -f1-3 /proc/loadavg), $(date -u +
 log "bench_perf (apply vs FFT, scaling, threads)"
 if [ $full = 1 ]; then "$build/bench_perf" --full 7; else "$build/bench_perf" 5; fi >"$work/perf.txt"
 grep '^#' "$work/perf.txt" >&2
+if [ $full = 1 ]; then
+    log "bench_perf --measure (the same with measured FFTW plans)"
+    "$build/bench_perf" --full --measure 5 >"$work/perf_m.txt"
+    grep '^#' "$work/perf_m.txt" >&2
+fi
 
 # 1 (repeatable): instruction counts of one apply and of the six transforms, 32^3.
 cg_ratio=n/a
@@ -90,6 +95,11 @@ printf '%-58s %-16s %-14s\n' "2. peak RSS of 'dipolize tensor', filled ${edge}^3
 printf '%-58s %-16s %-14s\n' "3. exponent e of t ~ N^e, edges $(val range $p)" "$(val exponent $p)" "<= 1.15"
 printf '%-58s %-16s %-14s\n' "3. same after dividing t by log N" "$(val exponent_nlogn $p)" "<= 1.15"
 printf '%-58s %-16s %-14s\n' "3. (reference) same fit for the six full FFTs" "$(val exponent_fft6 $p)" "-"
+if [ -f "$work/perf_m.txt" ]; then
+    q=$work/perf_m.txt
+    printf '%-58s %-16s %-14s\n' "3. exponent, --plan measure (operator and FFTs)" "$(val exponent $q)" "(<= 1.15)"
+    printf '%-58s %-16s %-14s\n' "3. (reference) six full FFTs, measured plans" "$(val exponent_fft6 $q)" "-"
+fi
 printf '%-58s %-16s %-14s\n' "3. apply speedup, 2 threads vs 1, 64^3 (wall, median)" "$(val speedup2 $p)" ">= 1.6"
 d=$work/demo.txt
 printf '%-58s %-16s %-14s\n' "4. demo sweep: iterations / wavelength (6 RHS), cold" "$(val iter_cold $d)" "-"

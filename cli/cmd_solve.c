@@ -86,7 +86,8 @@ static const cli_group static_group = {"Static", static_opts};
 
 static const cli_opt expand_opts[] = {
     {"--size-parameters", "LIST",
-     "comma list of x = k a_eq values (plain numbers > 0; default 8 values in 0.05..0.4)",
+     "comma list of x = k a_eq values (plain numbers in (0, 1]; default 8 values in "
+     "0.05..0.4)",
      0},
     {"--wavelength", "LEN",
      "vacuum wavelength at which dispersive materials are evaluated (required for them)",
@@ -828,6 +829,11 @@ static int run_expand(const cli_args *a)
                     "expand: --size-parameters: the fit of C0, C2, C3, C4 needs at "
                     "least 4 values, got %zu",
                     n);
+            for (size_t i = 0; rc == CLI_OK && i < n; i++)
+                if (x[i] > DPZ_EXPAND_X_MAX)
+                    rc = cli_fail("expand: --size-parameters: %g exceeds %g: the expansion "
+                                  "is a small-size series in x = k a_eq",
+                                  x[i], DPZ_EXPAND_X_MAX);
         } else {
             n = dpz_expand_default_points(x);
         }

@@ -101,10 +101,18 @@ typedef struct dpz_expansion {
     dpz_rhs_report worst; /* the worst right-hand side over all solves */
 } dpz_expansion;
 
+/* Largest size parameter x = k a_eq the expansion accepts. The fit is a truncated power
+ * series in x (terms to x^4, with x^5 and x^6 as nuisance terms from 7 points): beyond
+ * x = 1 the neglected terms are not small even for weakly scattering particles, and for a
+ * sphere of relative index n the first Mie resonance, where the series fails, lies near
+ * x = pi / n (Bohren & Huffman 1983, ch. 4; common practice to keep such fits well below
+ * the first resonance). */
+#define DPZ_EXPAND_X_MAX 1.0
+
 /* Default list of size parameters (8 values in 0.05..0.4); returns the count. */
 size_t dpz_expand_default_points(double x[64]);
 
-/* For each x[i] (n of them, 4..64, positive, distinct): k = x / a_eq (a_eq of the grid's
+/* For each x[i] (n of them, 4..64, in (0, DPZ_EXPAND_X_MAX], distinct): k = x / a_eq (a_eq of the grid's
  * volume), a_ee from the N-wave columns of the T block, then the least-squares fit
  * (LAPACKE_zgels) per element. C0 = V chi^-1 from dpz_static_compute; V = the grid's
  * volume. fit_residual: max over elements of ||residual|| / ||data||, elements that

@@ -162,6 +162,10 @@ static void test_expand_rejects_bad_input(void **state)
     assert_int_equal(dpz_expand_compute(&s, xr, 4, &ex, &err), DPZ_EINVAL);
     double xn[4] = {0.1, -0.2, 0.25, 0.3};
     assert_int_equal(dpz_expand_compute(&s, xn, 4, &ex, &err), DPZ_EINVAL);
+    /* beyond the small-size range of the series (DPZ_EXPAND_X_MAX = 1) */
+    double xl[4] = {0.1, 0.2, 0.3, 100.0};
+    assert_int_equal(dpz_expand_compute(&s, xl, 4, &ex, &err), DPZ_EINVAL);
+    assert_non_null(strstr(err.msg, "small-size series"));
     assert_int_equal(dpz_expand_compute(&s, NULL, 4, &ex, &err), DPZ_EINVAL);
     double x4[4] = {0.1, 0.2, 0.25, 0.3};
     for (long n = 0; n < 40; n++) {

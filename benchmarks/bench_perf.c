@@ -269,8 +269,7 @@ int main(int argc, char **argv)
         else if (strcmp(argv[i], "--measure") == 0) {
             plan_effort = DPZ_PLAN_MEASURE;
             fftw_effort = FFTW_MEASURE;
-        }
-        else if (strcmp(argv[i], "--once") == 0 && i + 1 < argc)
+        } else if (strcmp(argv[i], "--once") == 0 && i + 1 < argc)
             return once((size_t)atoi(argv[i + 1]));
         else
             reps = atoi(argv[i]);
@@ -319,11 +318,12 @@ int main(int argc, char **argv)
     double t1, t2;
     /* 2 threads vs 1 (wall clock: the point is the elapsed time), and the portable kernel
      * product against the automatic choice (CPU time, one thread). */
-    double sp = compare_ops(64, reps, 1, DPZ_SIMD_AUTO, 2, DPZ_SIMD_AUTO, now, &t1, &t2, NULL);
+    double sp =
+        compare_ops(64, reps, 1, DPZ_SIMD_AUTO, 2, DPZ_SIMD_AUTO, now, &t1, &t2, NULL);
     printf("# 64^3 apply: 1 thread %.3f ms, 2 threads %.3f ms\n", 1e3 * t1, 1e3 * t2);
     const char *pname = "generic";
-    double sg = compare_ops(32, reps, 1, DPZ_SIMD_GENERIC, 1, DPZ_SIMD_AUTO, cpu_now, &t1, &t2,
-                            &pname);
+    double sg = compare_ops(32, reps, 1, DPZ_SIMD_GENERIC, 1, DPZ_SIMD_AUTO, cpu_now, &t1,
+                            &t2, &pname);
     printf("# 32^3 apply: generic kernel product %.3f ms, %s %.3f ms\n", 1e3 * t1, pname,
            1e3 * t2);
     for (size_t s = 0; s < ns; s++)

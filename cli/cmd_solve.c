@@ -831,9 +831,10 @@ static int run_expand(const cli_args *a)
                     n);
             for (size_t i = 0; rc == CLI_OK && i < n; i++)
                 if (x[i] > DPZ_EXPAND_X_MAX)
-                    rc = cli_fail("expand: --size-parameters: %g exceeds %g: the expansion "
-                                  "is a small-size series in x = k a_eq",
-                                  x[i], DPZ_EXPAND_X_MAX);
+                    rc = cli_fail(
+                        "expand: --size-parameters: %g exceeds %g: the expansion "
+                        "is a small-size series in x = k a_eq",
+                        x[i], DPZ_EXPAND_X_MAX);
         } else {
             n = dpz_expand_default_points(x);
         }

@@ -3,9 +3,10 @@
  * in docs/sweep-format.md, crash-safe: every finished wavelength is appended to the
  * tables, and commits (fsync of the tables, the restart state, summary.json replaced
  * atomically last) follow often enough that a killed run loses little and rarely enough
- * that they cost at most about 5% of the run; `--resume` continues from the last. `--shard I/N` computes every N-th wavelength starting at I;
- * under an MPI launcher (built with -DDPZ_MPI=ON) rank 0 hands wavelengths out to the
- * other ranks (mpi_farm.c).
+ * that they cost at most about 5% of the run; `--resume` continues from the last.
+ * `--shard I/N` computes every N-th wavelength starting at I; under an MPI launcher
+ * (built with -DDPZ_MPI=ON) rank 0 hands wavelengths out to the other ranks
+ * (mpi_farm.c).
  *
  * Determinism: each wavelength's solves start from the previous wavelength's solutions
  * (warm start). The solutions are kept in DIR/restart.<0|1>.bin at every commit,
@@ -908,8 +909,8 @@ static void progress_start(const dpz__sweep_ctx *c, const dpz__sweep_out *o, siz
     fflush(stderr);
 }
 
-/* A commit is repeated once COMMIT_SPACING times its own last duration has passed, so that
- * committing costs at most about 1/COMMIT_SPACING of the run whatever the number of
+/* A commit is repeated once COMMIT_SPACING times its own last duration has passed, so
+ * that committing costs at most about 1/COMMIT_SPACING of the run whatever the number of
  * wavelengths (summary.json grows with every result: rewriting it after each of 4000
  * wavelengths of a small particle took two thirds of the run, by perf). */
 #define COMMIT_SPACING 20.0
@@ -935,7 +936,8 @@ dpz_status dpz__sweep_commit(dpz__sweep_ctx *c, dpz__sweep_out *o,
             return st;
     }
     if (finished)
-        cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "finished", cJSON_CreateTrue());
+        cJSON_ReplaceItemInObjectCaseSensitive(o->summary, "finished",
+                                               cJSON_CreateTrue());
     if ((st = write_summary(o, err)) != DPZ_OK)
         return st;
     if (finished)

@@ -112,12 +112,13 @@ typedef struct dpz_expansion {
 /* Default list of size parameters (8 values in 0.05..0.4); returns the count. */
 size_t dpz_expand_default_points(double x[64]);
 
-/* For each x[i] (n of them, 4..64, in (0, DPZ_EXPAND_X_MAX], distinct): k = x / a_eq (a_eq of the grid's
- * volume), a_ee from the N-wave columns of the T block, then the least-squares fit
- * (LAPACKE_zgels) per element. C0 = V chi^-1 from dpz_static_compute; V = the grid's
- * volume. fit_residual: max over elements of ||residual|| / ||data||, elements that
- * vanish by symmetry measured against 1e-3 of the largest. DPZ_ENOCONV (out filled,
- * converged = 0) when a solve did not converge; DPZ_ERANGE when chi or a_ee is singular.
+/* For each x[i] (n of them, 4..64, in (0, DPZ_EXPAND_X_MAX], distinct): k = x / a_eq
+ * (a_eq of the grid's volume), a_ee from the N-wave columns of the T block, then the
+ * least-squares fit (LAPACKE_zgels) per element. C0 = V chi^-1 from dpz_static_compute; V
+ * = the grid's volume. fit_residual: max over elements of ||residual|| / ||data||,
+ * elements that vanish by symmetry measured against 1e-3 of the largest. DPZ_ENOCONV (out
+ * filled, converged = 0) when a solve did not converge; DPZ_ERANGE when chi or a_ee is
+ * singular.
  */
 dpz_status dpz_expand_compute(const dpz_setup *setup, const double *x, size_t n,
                               dpz_expansion *out, dpz_err *err);

@@ -281,10 +281,11 @@ dpz_status dpz_expand_compute(const dpz_setup *setup, const double *x, size_t n,
                                "expand: size parameter %zu (%g) must be positive", i + 1,
                                x[i]);
         if (x[i] > DPZ_EXPAND_X_MAX)
-            return dpz_err_set(err, DPZ_EINVAL,
-                               "expand: size parameter %zu (%g) exceeds %g: the expansion "
-                               "is a small-size series in x = k a_eq",
-                               i + 1, x[i], DPZ_EXPAND_X_MAX);
+            return dpz_err_set(
+                err, DPZ_EINVAL,
+                "expand: size parameter %zu (%g) exceeds %g: the expansion "
+                "is a small-size series in x = k a_eq",
+                i + 1, x[i], DPZ_EXPAND_X_MAX);
         for (size_t j = 0; j < i; j++)
             if (x[j] == x[i])
                 return dpz_err_set(err, DPZ_EINVAL, "expand: size parameter %g repeated",

@@ -41,7 +41,8 @@
 #include <omp.h>
 
 /* The AVX2/FMA kernel product is compiled (with a target attribute, the rest of the
- * project stays generic x86-64) where the compiler supports it, and chosen at run time. */
+ * project stays generic x86-64) where the compiler supports it, and chosen at run time.
+ */
 #if (defined(__x86_64__) || defined(__i386__)) && defined(__GNUC__)
 #define DPZ_FFTOP_AVX2 1
 #include <immintrin.h>
@@ -72,19 +73,19 @@ struct dpz_fftop {
     size_t cs;            /* slab component stride, nx ny pz */
     size_t zb;            /* z frequencies per plane block (<= ZBLOCK) */
     size_t rs;            /* plane buffer x-row stride, >= py zb */
-    size_t ps;            /* plane buffer component stride, px py zb */
+    size_t ps;            /* plane buffer component stride, px rs */
     size_t pt;            /* plane buffer stride between threads, >= 3 ps */
     int threads;          /* OpenMP threads */
-    double complex
-        *kern;            /* transformed kernel over the octant, [c][a][b][m] (z frequency
+    double complex *kern; /* transformed kernel over the octant, [c][a][b][m] (z frequency
                              outermost, so that a block of z frequencies reads contiguous
                              memory) with the six components m = xx xy xz yy yz zz
                              innermost, scaled by 1/ptot */
     double complex *slab; /* 3 cs: [comp][i < nx][j < ny][c < pz] */
-    double complex *plane; /* threads x 3 ps: per thread [comp][a][b][t < zb] */
-    size_t *refl;          /* per axis (offsets 0, p0, p0 + p1): folded frequency index */
-    double *sign;          /* per axis: +1, or -1 where the frequency was reflected */
-    size_t *pos;           /* n_occ slab indices of the occupied voxels */
+    double complex
+        *plane;   /* threads x 3 ps: per thread [comp][a][b][t < zb], row a at a rs */
+    size_t *refl; /* per axis (offsets 0, p0, p0 + p1): folded frequency index */
+    double *sign; /* per axis: +1, or -1 where the frequency was reflected */
+    size_t *pos;  /* n_occ slab indices of the occupied voxels */
     double complex *inv_alpha; /* n_occ, m^-3 */
     double complex *diag3;     /* 3 n_occ, the diagonal for Jacobi preconditioning */
     /* z passes on ZLINES lines and on the remainder; plane passes for a full block of zb
@@ -143,8 +144,8 @@ static int make_layout(const dpz_grid *g, layout *L)
      * fits in PLANE_BUDGET bytes, but at least 4, so that each visit of a slab line moves
      * a whole 64-byte cache line (measured at 128^3: 4 faster than 2, and 2 than 1). */
     L->zb = ZBLOCK;
-    while (L->zb > 4 && 3 * L->p[0] * (L->p[1] + 1) * L->zb * sizeof(double complex) >
-                            PLANE_BUDGET)
+    while (L->zb > 4 &&
+           3 * L->p[0] * (L->p[1] + 1) * L->zb * sizeof(double complex) > PLANE_BUDGET)
         L->zb /= 2;
     if (L->zb > L->p[2])
         L->zb = L->p[2];
@@ -610,12 +611,22 @@ typedef struct kview {
 static kview kernel_view(const dpz_fftop *op, double complex *P)
 {
     const size_t *p = op->p;
-    kview v = {op->refl,        op->refl + p[0], op->refl + p[0] + p[1],
-               op->sign,        op->sign + p[0], op->sign + p[0] + p[1],
+    kview v = {op->refl,
+               op->refl + p[0],
+               op->refl + p[0] + p[1],
+               op->sign,
+               op->sign + p[0],
+               op->sign + p[0] + p[1],
                (const double *)op->kern,
-               p[0],            p[1],            op->h[1],
-               op->h[0] * op->h[1], op->zb,      op->rs,
-               (double *)P,     (double *)(P + op->ps), (double *)(P + 2 * op->ps)};
+               p[0],
+               p[1],
+               op->h[1],
+               op->h[0] * op->h[1],
+               op->zb,
+               op->rs,
+               (double *)P,
+               (double *)(P + op->ps),
+               (double *)(P + 2 * op->ps)};
     return v;
 }
 
@@ -685,9 +696,9 @@ product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
                         Z = _mm256_loadu_pd(pz);
                 /* Output r sums components gc[r][0..2] of g times x, y, z. */
                 static const int gc[3][3] = {{0, 1, 2}, {1, 3, 4}, {2, 4, 5}};
-                const __m256d V[3] = {X, Y, Z},
-                              Vs[3] = {_mm256_permute_pd(X, 0x5), _mm256_permute_pd(Y, 0x5),
-                                       _mm256_permute_pd(Z, 0x5)};
+                const __m256d V[3] = {X, Y, Z}, Vs[3] = {_mm256_permute_pd(X, 0x5),
+                                                         _mm256_permute_pd(Y, 0x5),
+                                                         _mm256_permute_pd(Z, 0x5)};
                 double *dst[3] = {px, py, pz};
                 for (int r = 0; r < 3; r++) {
                     const int *q = gc[r];
@@ -712,8 +723,8 @@ product_avx2(const dpz_fftop *op, double complex *P, size_t c0, size_t nt)
 /* Copies a run of nt <= ZBLOCK complex numbers (GCC turns the loop into a memmove call;
  * forcing it inline changed nothing beyond noise at 16^3 to 128^3: the cost of these
  * copies, 15% of an apply at 64^3 by perf, is the cache misses on the slab lines). */
-static inline void copy_run(double complex *restrict dst, const double complex *restrict src,
-                            size_t nt)
+static inline void copy_run(double complex *restrict dst,
+                            const double complex *restrict src, size_t nt)
 {
     for (size_t t = 0; t < nt; t++)
         dst[t] = src[t];

@@ -219,7 +219,8 @@ static void test_fftop_simd_matches_generic(void **state)
 {
     (void)state;
     const size_t dims[][3] = {{7, 7, 7}, {4, 3, 1}, {30, 28, 9}, {2, 2, 11}};
-    const shape_kind shapes[] = {SHAPE_SPHERE_HOLES, SHAPE_HALF, SHAPE_SPARSE, SHAPE_HALF};
+    const shape_kind shapes[] = {SHAPE_SPHERE_HOLES, SHAPE_HALF, SHAPE_SPARSE,
+                                 SHAPE_HALF};
     for (int c = 0; c < 4; c++) {
         dpz_grid *g = make_grid(dims[c][0], dims[c][1], dims[c][2], shapes[c]);
         size_t n = 3 * g->n_occ;
@@ -234,7 +235,8 @@ static void test_fftop_simd_matches_generic(void **state)
                     og = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_GENERIC};
         dpz_fftop *a = NULL, *gen = NULL;
         dpz_err err;
-        assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_LDR, ia, &oa, &err), DPZ_OK);
+        assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_LDR, ia, &oa, &err),
+                         DPZ_OK);
         assert_int_equal(dpz_fftop_create(&gen, g, k, DPZ_DIPOLE_LDR, ia, &og, &err),
                          DPZ_OK);
         assert_string_equal(dpz_fftop_product_name(gen), "generic");
@@ -315,7 +317,8 @@ static void test_fftop_threads_agree(void **state)
     random_vec(x, n, &seed);
     dpz_err err;
     dpz_fftop *a = NULL, *b = NULL;
-    dpz_op_opts o1 = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO}, o2 = {2, DPZ_PLAN_MEASURE, DPZ_SIMD_AUTO};
+    dpz_op_opts o1 = {1, DPZ_PLAN_ESTIMATE, DPZ_SIMD_AUTO},
+                o2 = {2, DPZ_PLAN_MEASURE, DPZ_SIMD_AUTO};
     assert_int_equal(dpz_fftop_create(&a, g, k, DPZ_DIPOLE_CMRR, ia, &o1, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_create(&b, g, k, DPZ_DIPOLE_CMRR, ia, &o2, &err), DPZ_OK);
     assert_int_equal(dpz_fftop_apply(a, x, y1, &err), DPZ_OK);
@@ -344,8 +347,8 @@ static void test_fftop_threads_agree(void **state)
 
 /* Padded sizes are even, FFT-friendly (factors 2, 3, 5, 7) and at least 2n - 1 (1 for a
  * single layer); the memory estimate covers the z-transformed slab (3 nx ny pz points),
- * one plane buffer per thread (3 px (py + 1) zb points, zb <= 16 z frequencies) and the six
- * kernel components on the non-negative frequency octant (p/2 + 1 per axis), plus
+ * one plane buffer per thread (3 px (py + 1) zb points, zb <= 16 z frequencies) and the
+ * six kernel components on the non-negative frequency octant (p/2 + 1 per axis), plus
  * per-voxel data. */
 static void test_fftop_padding_and_memory(void **state)
 {

@@ -949,6 +949,22 @@ dpz_status dpz__sweep_commit(dpz__sweep_ctx *c, dpz__sweep_out *o,
     return DPZ_OK;
 }
 
+/* At the end of a session, successful or not: commits the wavelengths recorded since the
+ * last commit. Returns `st`, or the commit's failure (in *err) when `st` was DPZ_OK. */
+static dpz_status commit_rest(dpz__sweep_ctx *c, dpz__sweep_out *o,
+                              double complex *const warm[6], dpz_status st, dpz_err *err)
+{
+    if (o->done == o->committed)
+        return st;
+    dpz_err ce;
+    dpz_status cs = dpz__sweep_commit(c, o, warm, &ce);
+    if (st == DPZ_OK && cs != DPZ_OK) {
+        *err = ce;
+        return cs;
+    }
+    return st;
+}
+
 dpz_status dpz__sweep_record(dpz__sweep_ctx *c, dpz__sweep_out *o,
                              const dpz_sweep_result *r, double complex *const warm[6],
                              dpz_err *err)
@@ -1157,14 +1173,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
     dpz_status st = DPZ_OK;
     if (size > 1) {
         st = dpz__mpi_farm(c, &o, o.done, &e);
-        if (o.done > o.committed) {
-            dpz_err ce;
-            dpz_status cs = dpz__sweep_commit(c, &o, NULL, &ce);
-            if (st == DPZ_OK && cs != DPZ_OK) {
-                st = cs;
-                e = ce;
-            }
-        }
+        st = commit_rest(c, &o, NULL, st, &e);
     } else if (o.done < c->shard_size) {
         double complex *warm[6] = {NULL};
         for (int i = 0; i < 6; i++) {
@@ -1193,15 +1202,7 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
             if (st == DPZ_OK)
                 st = dpz__sweep_record(c, &o, &r, warm, &e);
         }
-        /* A failure leaves recorded wavelengths since the last commit: commit them. */
-        if (o.done > o.committed) {
-            dpz_err ce;
-            dpz_status cs = dpz__sweep_commit(c, &o, warm, &ce);
-            if (st == DPZ_OK && cs != DPZ_OK) {
-                st = cs;
-                e = ce;
-            }
-        }
+        st = commit_rest(c, &o, warm, st, &e);
         for (int i = 0; i < 6; i++)
             free(warm[i]);
     }

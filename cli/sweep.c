@@ -316,7 +316,7 @@ struct dpz__sweep_out {
     int progress;       /* 0 quiet, 1 one line per wavelength, 2 terminal line */
     int lock_fd;        /* DIR/.lock, locked while this process writes DIR; -1 none */
     size_t committed;   /* shard positions in the summary.json on disk */
-    unsigned commits;   /* commits in this session (restart slot parity) */
+    unsigned commits; /* commits so far; the next restart file goes to slot commits % 2 */
     double last_commit; /* when the last commit ended, s (monotonic; 0: none yet) */
     double commit_cost; /* how long it took, s */
 };
@@ -385,12 +385,13 @@ static int read_restart_slot(const char *dir, int slot, uint64_t position, doubl
     return ok ? 0 : -1;
 }
 
+/* Tries both slots; returns the slot that held the state, or -1. */
 static int read_restart(const char *dir, uint64_t position, double lambda, uint64_t n_vec,
                         double complex *warm[6])
 {
     for (int slot = 0; slot < 2; slot++)
         if (read_restart_slot(dir, slot, position, lambda, n_vec, warm) == 0)
-            return 0;
+            return slot;
     return -1;
 }
 
@@ -911,8 +912,8 @@ static void progress_start(const dpz__sweep_ctx *c, const dpz__sweep_out *o, siz
 
 /* A commit is repeated once COMMIT_SPACING times its own last duration has passed, so
  * that committing costs at most about 1/COMMIT_SPACING of the run whatever the number of
- * wavelengths (summary.json grows with every result: rewriting it after each of 4000
- * wavelengths of a small particle took two thirds of the run, by perf). */
+ * wavelengths (summary.json grows with every result: rewriting it after each wavelength
+ * made a 4000-wavelength sweep of a 27-voxel cube ten times slower). */
 #define COMMIT_SPACING 20.0
 
 /* Makes the finished wavelengths durable together: fsync of the three tables, the restart
@@ -1187,7 +1188,11 @@ static int sweep_body(const cli_args *a, dpz__sweep_ctx *c, int rank, int size)
         if (st == DPZ_OK && o.done > 0) {
             size_t jp = o.done - 1,
                    pp = dpz_sweep_shard_position(jp, c->shard_index, c->shard_count);
-            if (read_restart(o.dir, pp, c->wl[pp], c->n_vec, warm) != 0 && o.progress)
+            int slot = read_restart(o.dir, pp, c->wl[pp], c->n_vec, warm);
+            /* The next commit writes the other slot: the one read stays valid until the
+             * next summary.json is in place. */
+            o.commits = slot >= 0 ? (unsigned)slot + 1 : 0;
+            if (slot < 0 && o.progress)
                 fprintf(stderr,
                         "dipolize: sweep: no restart state for wavelength %zu; the "
                         "next solves start from zero (results agree with an "

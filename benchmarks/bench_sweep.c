@@ -24,12 +24,7 @@
 #include "dpz_material.h"
 #include "dpz_shape.h"
 
-static double cpu_now(void)
-{
-    struct timespec ts;
-    clock_gettime(CLOCK_PROCESS_CPUTIME_ID, &ts);
-    return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
-}
+#include "bench_common.h"
 
 static void die(const char *what, const dpz_err *e)
 {
@@ -93,17 +88,17 @@ int main(int argc, char **argv)
         for (int l = 0; l < 256; l++)
             su.eps_label[l] = eps;
         dpz_tensor T;
-        double t0 = cpu_now();
+        double t0 = process_cpu_now();
         dpz_status st = dpz_tensor_compute(&su, lam * 1e-9, &T, NULL, &e);
-        double t1 = cpu_now();
+        double t1 = process_cpu_now();
         if (st != DPZ_OK && st != DPZ_ENOCONV)
             die("cold solve", &e);
         size_t ic = 0;
         for (int i = 0; i < 6; i++)
             ic += T.rhs[i].iterations;
-        double t2 = cpu_now();
+        double t2 = process_cpu_now();
         st = dpz_tensor_compute(&su, lam * 1e-9, &T, warm, &e);
-        double t3 = cpu_now();
+        double t3 = process_cpu_now();
         if (st != DPZ_OK && st != DPZ_ENOCONV)
             die("warm solve", &e);
         size_t iw = 0;

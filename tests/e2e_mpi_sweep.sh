@@ -9,7 +9,7 @@
 # Skips (exit 0 with a message) when the binary was built without MPI (-DDPZ_MPI=ON) or
 # mpirun is absent. Usage: e2e_mpi_sweep.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_mpi_sweep.sh PATH_TO_DIPOLIZE}
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 if ! command -v mpirun >/dev/null 2>&1; then
     echo "e2e_mpi_sweep: SKIP (no mpirun on PATH)"
     exit 0
@@ -21,14 +21,6 @@ fi
 if [ "$(id -u)" = 0 ]; then
     export OMPI_ALLOW_RUN_AS_ROOT=1 OMPI_ALLOW_RUN_AS_ROOT_CONFIRM=1
 fi
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
 cmp_py="$(dirname "$0")/helpers/compare_sweeps.py"
 mpi=(mpirun --oversubscribe)
 

@@ -3,13 +3,7 @@
 # exit code 2, one line on stderr naming the problem, and no output directory (or an
 # untouched one). Usage: e2e_sweep_bad_input.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_bad_input.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 n_ok=0
 
 "$bin" shape sphere --radius 3nm --spacing 1nm -o "$tmp/s.vtk" >/dev/null || fail "shape"

@@ -15,15 +15,7 @@
 # the x and y linear ones, which are equal for the sphere.
 # Usage: e2e_sweep_consistency.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_consistency.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 
 "$bin" shape ellipsoid --semi-axes 4nm,3nm,2nm --spacing 1nm -o "$tmp/e.vtk" >/dev/null ||
     fail "shape"

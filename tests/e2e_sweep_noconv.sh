@@ -5,15 +5,7 @@
 # summary.json and static.json, and exits with code 1; such a run still resumes and merges.
 # Usage: e2e_sweep_noconv.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_noconv.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 
 "$bin" shape sphere --radius 3nm --spacing 1nm -o "$tmp/s.vtk" >/dev/null || fail "shape"
 args=(sweep "$tmp/s.vtk" --eps 12.25+0.5i --wavelengths 300nm,350nm,400nm --max-iter 3

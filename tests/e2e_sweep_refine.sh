@@ -17,20 +17,7 @@
 #  - merge accepts refined shards and refuses to mix refined and unrefined ones (exit 2).
 # Usage: e2e_sweep_refine.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_refine.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-pid=
-cleanup() {
-    [ -n "$pid" ] && kill -9 "$pid" 2>/dev/null
-    rm -rf "$tmp"
-}
-trap cleanup EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 
 # A dielectric sphere of radius 4 voxels (280 dipoles; 912 on the finer level), given as
 # a shape so that --refine re-voxelizes it.
@@ -193,7 +180,6 @@ grep -q "refine" "$tmp/err" || fail "mixed merge refusal does not name refine: $
 # restart file held both levels' six warm vectors: 32 bytes + 6 x 3 x (280 + 912) x 16.
 rargs=(sweep "$tmp/s.vtk" "${common[@]}" --refine 2 --wavelengths 300nm:350nm:10nm)
 "$bin" "${rargs[@]}" -o "$tmp/R" || fail "uninterrupted refined run"
-rows() { local n; n=$(grep -vc '^#' "$1/diagnostics.csv" 2>/dev/null) || n=0; echo $((n > 0 ? n - 1 : 0)); }
 for attempt in 1 2 3; do
     rm -rf "$tmp/K"
     "$bin" "${rargs[@]}" -o "$tmp/K" &

@@ -5,32 +5,13 @@
 # summary.json are committed together, a resume continues from the last commit, and a
 # damaged tail left by the kill is cut off. Usage: e2e_sweep_resume.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_resume.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-pid=
-cleanup() {
-    [ -n "$pid" ] && kill -9 "$pid" 2>/dev/null
-    rm -rf "$tmp"
-}
-trap cleanup EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 
 # A sphere of radius 5 voxels (~500 dipoles), high index: about 0.5 s per wavelength.
 "$bin" shape sphere --radius 5nm --spacing 1nm -o "$tmp/s.vtk" >/dev/null || fail "shape"
 args=(sweep "$tmp/s.vtk" --eps 12.25+0.5i --wavelengths 300nm:370nm:10nm --threads 1
       --quiet)
 
-rows() { # finished wavelengths visible in DIR/diagnostics.csv
-    local f="$1/diagnostics.csv" n
-    [ -f "$f" ] || { echo 0; return; }
-    n=$(grep -vc '^#' "$f")
-    echo $((n > 0 ? n - 1 : 0))
-}
 
 # kill_after DIR N: runs (resuming) into DIR and kills it with SIGKILL as soon as N
 # wavelengths are in its tables (or after at most 60 s).

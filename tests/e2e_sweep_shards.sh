@@ -8,15 +8,7 @@
 # check allows 1e-6 relative to the largest element of each wavelength's tensor (the
 # solves stop at a relative residual of 1e-8). Usage: e2e_sweep_shards.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_sweep_shards.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 
 "$bin" shape sphere --radius 4nm --spacing 1nm -o "$tmp/s.vtk" >/dev/null || fail "shape"
 args=(sweep "$tmp/s.vtk" --eps 2.25+0.1i --wavelengths 200nm:270nm:10nm --threads 1 --quiet)

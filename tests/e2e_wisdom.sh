@@ -6,15 +6,7 @@
 # not wisdom are refused with exit code 2 and no output on stdout.
 # Usage: e2e_wisdom.sh PATH_TO_DIPOLIZE
 set -u
-bin=${1:?usage: e2e_wisdom.sh PATH_TO_DIPOLIZE}
-tmp=$(mktemp -d)
-trap 'rm -rf "$tmp"' EXIT
-fail() {
-    echo "FAIL: $*"
-    exit 1
-}
-py=/usr/bin/python3
-[ -x "$py" ] || py=python3
+. "$(dirname "$0")/helpers/e2e_prelude.sh" "$@"
 strip() { sed -E 's/"seconds":[-0-9.eE+]+//g' "$1"; }
 
 "$bin" shape sphere --radius 6nm --spacing 1.5nm -o "$tmp/s.vtk" >/dev/null || fail "shape"

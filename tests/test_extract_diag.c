@@ -32,22 +32,6 @@
 #define SOLVE_TOL 1e-11
 #define TOL_EXACT 1e-8
 
-static dpz_setup make_setup(const dpz_grid *g, double complex eps)
-{
-    dpz_setup s;
-    memset(&s, 0, sizeof s);
-    s.grid = g;
-    for (int l = 0; l < 256; l++)
-        s.eps_label[l] = eps;
-    s.host_index = 1.0;
-    s.model = DPZ_DIPOLE_CMRR;
-    s.solve = dpz_solve_opts_default();
-    s.solve.kind = DPZ_SOLVER_COCG;
-    s.solve.tol = SOLVE_TOL;
-    s.op.threads = 1;
-    return s;
-}
-
 static dpz_grid *helix_grid(double d, int left)
 {
     dpz_shape sh;
@@ -92,7 +76,7 @@ static dpz_grid *cluster_grid(double d)
 /* Tensor at x_eq = k a_eq = x. */
 static void tensor_at(const dpz_grid *g, double complex eps, double x, dpz_tensor *t)
 {
-    dpz_setup s = make_setup(g, eps);
+    dpz_setup s = dpz_test_setup(g, eps, SOLVE_TOL);
     double k = x / dpz_grid_aeq(g);
     dpz_err err;
     dpz_status st = dpz_tensor_compute(&s, 2.0 * PI / k, t, NULL, &err);
@@ -325,7 +309,7 @@ static void test_diag_ldr_lossless_balance(void **state)
     (void)state;
     const double d = 4.1e-9;
     dpz_grid *g = split_ring_grid(d);
-    dpz_setup s = make_setup(g, 12.25);
+    dpz_setup s = dpz_test_setup(g, 12.25, SOLVE_TOL);
     s.model = DPZ_DIPOLE_LDR;
     double k = 0.5 / dpz_grid_aeq(g);
     dpz_tensor t;
@@ -384,7 +368,7 @@ static void test_diag_cross_sections_against_mie(void **state)
     for (int c = 0; c < 2; c++) {
         dpz_tensor t;
         tensor_at(g, eps[c], 0.5, &t);
-        dpz_setup s = make_setup(g, eps[c]);
+        dpz_setup s = dpz_test_setup(g, eps[c], SOLVE_TOL);
         dpz_xsec xs;
         dpz_err err;
         assert_int_equal(dpz_xsec_compute(&s, t.lambda0_m, khat, e0, &t, &xs, &err),
@@ -420,7 +404,7 @@ static void test_diag_cross_sections_against_mie(void **state)
     /* errors: wrong wavelength, non-transverse field */
     dpz_tensor t;
     tensor_at(g, 2.25, 0.5, &t);
-    dpz_setup s = make_setup(g, 2.25);
+    dpz_setup s = dpz_test_setup(g, 2.25, SOLVE_TOL);
     dpz_xsec xs;
     dpz_err err;
     assert_int_equal(dpz_xsec_compute(&s, 1.1 * t.lambda0_m, khat, e0, &t, &xs, &err),
@@ -447,7 +431,7 @@ static void test_diag_cross_sections_energy_balance(void **state)
     const double complex eps = CMPLX(-10.0, 1.0);
     dpz_tensor t;
     tensor_at(g, eps, 0.7, &t);
-    dpz_setup s = make_setup(g, eps);
+    dpz_setup s = dpz_test_setup(g, eps, SOLVE_TOL);
     s.solve.tol = 1e-12;
     const double khat[3] = {0.0, 0.6, 0.8};
     const double complex e0[3] = {CMPLX(1.3, 0.2), CMPLX(0.0, 0.8), CMPLX(0.0, -0.6)};

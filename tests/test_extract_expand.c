@@ -16,21 +16,8 @@
 #include "dpz_extract.h"
 #include "dpz_shape.h"
 
-static dpz_setup make_setup(const dpz_grid *g, double complex eps)
-{
-    dpz_setup s;
-    memset(&s, 0, sizeof s);
-    s.grid = g;
-    for (int l = 0; l < 256; l++)
-        s.eps_label[l] = eps;
-    s.host_index = 1.0;
-    s.model = DPZ_DIPOLE_CMRR;
-    s.solve = dpz_solve_opts_default();
-    s.solve.kind = DPZ_SOLVER_COCG;
-    s.solve.tol = 1e-11; /* the x^3 term is 1e-3 of C0 at x = 0.05: solve tightly */
-    s.op.threads = 1;
-    return s;
-}
+/* The x^3 term is 1e-3 of C0 at x = 0.05: solve tightly. */
+#define EXPAND_TOL 1e-11
 
 static dpz_grid *shape_grid(dpz_shape_kind kind, double p1, double d)
 {
@@ -55,7 +42,7 @@ static dpz_grid *shape_grid(dpz_shape_kind kind, double p1, double d)
 
 static void expand(const dpz_grid *g, double complex eps, dpz_expansion *e)
 {
-    dpz_setup s = make_setup(g, eps);
+    dpz_setup s = dpz_test_setup(g, eps, EXPAND_TOL);
     double x[64];
     size_t n = dpz_expand_default_points(x);
     assert_int_equal(n, 8);
@@ -152,7 +139,7 @@ static void test_expand_rejects_bad_input(void **state)
     (void)state;
     const double d = 3.0e-9;
     dpz_grid *g = shape_grid(DPZ_SHAPE_SPHERE, 1.0 * d + 1e-12, d);
-    dpz_setup s = make_setup(g, 2.385);
+    dpz_setup s = dpz_test_setup(g, 2.385, EXPAND_TOL);
     dpz_expansion ex;
     dpz_err err;
     double x3[3] = {0.1, 0.2, 0.3};

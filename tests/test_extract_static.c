@@ -125,17 +125,7 @@ static double ellipsoid_deviation(int s, const double eu[3], double ratios[3])
     memcpy(sh.euler, eu, sizeof sh.euler);
     dpz_grid *g = NULL;
     assert_int_equal(dpz_shape_voxelize(&g, &sh, d, 0, 1, 0, NULL), DPZ_OK);
-    dpz_setup st;
-    memset(&st, 0, sizeof st);
-    st.grid = g;
-    for (int l = 0; l < 256; l++)
-        st.eps_label[l] = 4.0;
-    st.host_index = 1.0;
-    st.model = DPZ_DIPOLE_CMRR;
-    st.solve = dpz_solve_opts_default();
-    st.solve.kind = DPZ_SOLVER_COCG;
-    st.solve.tol = 1e-10;
-    st.op.threads = 1;
+    dpz_setup st = dpz_test_setup(g, 4.0, 1e-10);
     double complex chi[3][3], ref[3][3], al[3];
     dpz_rhs_report rep[3];
     assert_int_equal(dpz_static_compute(&st, chi, rep, NULL), DPZ_OK);

@@ -43,25 +43,6 @@ static dpz_grid *make_sphere(int R, double d)
     return g;
 }
 
-static dpz_setup make_setup(const dpz_grid *g, double complex eps, double tol)
-{
-    dpz_setup s;
-    memset(&s, 0, sizeof s);
-    s.grid = g;
-    for (int l = 0; l < 256; l++)
-        s.eps_label[l] = eps;
-    s.host_index = 1.0;
-    s.model = DPZ_DIPOLE_CMRR;
-    s.solve = dpz_solve_opts_default();
-    s.solve.tol = tol;
-    /* COCG (van der Vorst & Melissen 1990) exploits the complex symmetry: 4x fewer
-     * operator applications than BiCGSTAB on the metal spheres here. */
-    s.solve.kind = DPZ_SOLVER_COCG;
-    s.op.threads = 1;
-    s.op.plan = DPZ_PLAN_ESTIMATE;
-    return s;
-}
-
 static void test_tblock_conversion_round_trip(void **state)
 {
     (void)state;
@@ -219,7 +200,7 @@ static void sphere_errors(double complex eps, int R, double *eee, double *emm,
 {
     const double d = 4.7e-9;
     dpz_grid *g = make_sphere(R, d);
-    dpz_setup s = make_setup(g, eps, 1e-8); /* percent-level errors: 1e-8 is ample */
+    dpz_setup s = dpz_test_setup(g, eps, 1e-8); /* percent-level errors: 1e-8 is ample */
     double aeq = dpz_grid_aeq(g);
     double k = 0.5 / aeq;
     double lambda0 = 2.0 * PI / k;
@@ -282,7 +263,7 @@ static void test_tblock_warm_start(void **state)
 {
     (void)state;
     dpz_grid *g = make_sphere(3, 4.3e-9);
-    dpz_setup s = make_setup(g, 12.25, 1e-10);
+    dpz_setup s = dpz_test_setup(g, 12.25, 1e-10);
     size_t n3 = 3 * g->n_occ;
     double complex *buf = calloc(6 * n3, sizeof *buf);
     assert_non_null(buf);
@@ -348,7 +329,7 @@ static void test_tblock_rejects_bad_input(void **state)
     assert_true(rep[0].status != DPZ_OK);
     dpz_denseop_destroy(op);
     /* the top-level API */
-    dpz_setup s = make_setup(g, 2.25, 1e-8);
+    dpz_setup s = dpz_test_setup(g, 2.25, 1e-8);
     dpz_tensor t;
     assert_int_equal(dpz_tensor_compute(&s, -1.0, &t, NULL, &err), DPZ_EINVAL);
     s.host_index = 0.0;

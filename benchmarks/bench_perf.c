@@ -83,6 +83,32 @@ static dpz_fftop *make_op_simd(const dpz_grid *g, int threads, dpz_simd simd,
     return op;
 }
 
+/* A fixed test vector of nv entries (allocated; never zero, no structure). */
+static double complex *test_vector(size_t nv)
+{
+    double complex *x = malloc(nv * sizeof *x);
+    for (size_t i = 0; x && i < nv; i++)
+        x[i] = CMPLX(sin(0.37 * (double)i), cos(0.11 * (double)i));
+    return x;
+}
+
+/* The reference of a naive operator on the padded grid p: three forward and three
+ * inverse full 3-D transforms, one batched plan each way, on a zeroed buffer (returned;
+ * free with fftw_free). */
+static fftw_complex *reference_plans(const size_t p[3], fftw_plan *f, fftw_plan *b)
+{
+    size_t ptot = p[0] * p[1] * p[2];
+    fftw_plan_with_nthreads(1);
+    fftw_complex *buf = fftw_malloc(3 * ptot * sizeof *buf);
+    int dims[3] = {(int)p[0], (int)p[1], (int)p[2]};
+    *f = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1, (int)ptot,
+                            FFTW_FORWARD, fftw_effort);
+    *b = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1, (int)ptot,
+                            FFTW_BACKWARD, fftw_effort);
+    memset(buf, 0, 3 * ptot * sizeof *buf);
+    return buf;
+}
+
 typedef struct result {
     size_t n;
     double apply, fft6, ratio, bytes;
@@ -97,18 +123,9 @@ static result measure(size_t n, int reps)
     dpz_fftop *op = make_op(g, 1, &ia);
     size_t nv = 3 * g->n_occ, p[3];
     dpz_fftop_padded_dims(op, p);
-    size_t ptot = p[0] * p[1] * p[2];
-    double complex *x = malloc(nv * sizeof *x), *y = malloc(nv * sizeof *y);
-    for (size_t i = 0; i < nv; i++)
-        x[i] = CMPLX(sin(0.37 * (double)i), cos(0.11 * (double)i));
-    fftw_plan_with_nthreads(1);
-    fftw_complex *buf = fftw_malloc(3 * ptot * sizeof *buf);
-    int dims[3] = {(int)p[0], (int)p[1], (int)p[2]};
-    fftw_plan f = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_FORWARD, fftw_effort);
-    fftw_plan b = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_BACKWARD, fftw_effort);
-    memset(buf, 0, 3 * ptot * sizeof *buf);
+    double complex *x = test_vector(nv), *y = malloc(nv * sizeof *y);
+    fftw_plan f, b;
+    fftw_complex *buf = reference_plans(p, &f, &b);
     double *ta = malloc((size_t)reps * sizeof *ta),
            *tf = malloc((size_t)reps * sizeof *tf),
            *tr = malloc((size_t)reps * sizeof *tr);
@@ -158,9 +175,7 @@ static double compare_ops(size_t n, int reps, int ta, dpz_simd sa, int tb, dpz_s
     if (bname)
         *bname = dpz_fftop_product_name(ob);
     size_t nv = 3 * g->n_occ;
-    double complex *x = malloc(nv * sizeof *x), *y = malloc(nv * sizeof *y);
-    for (size_t i = 0; i < nv; i++)
-        x[i] = CMPLX(sin(0.37 * (double)i), cos(0.11 * (double)i));
+    double complex *x = test_vector(nv), *y = malloc(nv * sizeof *y);
     double *a = malloc((size_t)reps * sizeof *a), *b = malloc((size_t)reps * sizeof *b),
            *s = malloc((size_t)reps * sizeof *s);
     dpz_err err;
@@ -211,15 +226,9 @@ static int once(size_t n)
     dpz_fftop *op = make_op(g, 1, &ia);
     size_t nv = 3 * g->n_occ, p[3];
     dpz_fftop_padded_dims(op, p);
-    size_t ptot = p[0] * p[1] * p[2];
-    double complex *x = calloc(nv, sizeof *x), *y = malloc(nv * sizeof *y);
-    fftw_complex *buf = fftw_malloc(3 * ptot * sizeof *buf);
-    int dims[3] = {(int)p[0], (int)p[1], (int)p[2]};
-    fftw_plan f = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_FORWARD, FFTW_ESTIMATE);
-    fftw_plan b = fftw_plan_many_dft(3, dims, 3, buf, NULL, 1, (int)ptot, buf, NULL, 1,
-                                     (int)ptot, FFTW_BACKWARD, FFTW_ESTIMATE);
-    memset(buf, 0, 3 * ptot * sizeof *buf);
+    double complex *x = test_vector(nv), *y = malloc(nv * sizeof *y);
+    fftw_plan f, b;
+    fftw_complex *buf = reference_plans(p, &f, &b);
     dpz_err err;
     dpz_fftop_apply(op, x, y, &err);
     bench_fft6_once(f, b);

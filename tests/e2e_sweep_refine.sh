@@ -182,16 +182,7 @@ rargs=(sweep "$tmp/s.vtk" "${common[@]}" --refine 2 --wavelengths 300nm:350nm:10
 "$bin" "${rargs[@]}" -o "$tmp/R" || fail "uninterrupted refined run"
 for attempt in 1 2 3; do
     rm -rf "$tmp/K"
-    "$bin" "${rargs[@]}" -o "$tmp/K" &
-    pid=$!
-    for i in $(seq 1 2000); do
-        [ "$(rows "$tmp/K")" -ge 2 ] && break
-        kill -0 "$pid" 2>/dev/null || break
-        sleep 0.01
-    done
-    kill -9 "$pid" 2>/dev/null
-    wait "$pid" 2>/dev/null
-    pid=
+    kill_after "$tmp/K" 2 "${rargs[@]}"
     n=$(rows "$tmp/K")
     [ "$n" -ge 1 ] && [ "$n" -lt 6 ] && break
 done

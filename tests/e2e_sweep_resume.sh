@@ -13,22 +13,6 @@ args=(sweep "$tmp/s.vtk" --eps 12.25+0.5i --wavelengths 300nm:370nm:10nm --threa
       --quiet)
 
 
-# kill_after DIR N: runs (resuming) into DIR and kills it with SIGKILL as soon as N
-# wavelengths are in its tables (or after at most 60 s).
-kill_after() {
-    local dir=$1 n=$2 i
-    "$bin" "${args[@]}" -o "$dir" --resume &
-    pid=$!
-    for i in $(seq 1 1200); do
-        [ "$(rows "$dir")" -ge "$n" ] && break
-        kill -0 "$pid" 2>/dev/null || break
-        sleep 0.05
-    done
-    kill -9 "$pid" 2>/dev/null
-    wait "$pid" 2>/dev/null
-    pid=
-}
-
 # kill_at DIR MS: runs (resuming) into DIR and kills it after MS milliseconds.
 kill_at() {
     "$bin" "${args[@]}" -o "$1" --resume &
@@ -65,10 +49,10 @@ run_ms=$((($(date +%s%N) - t0) / 1000000)) # wall time of a whole run, ms
 
 # B: killed after 2, then after 5 finished wavelengths; then a damaged tail (a row cut
 # short, as a kill during a write leaves it) before the last resume.
-kill_after "$tmp/B" 2
+kill_after "$tmp/B" 2 "${args[@]}"
 r=$(rows "$tmp/B")
 [ "$r" -ge 2 ] && [ "$r" -lt 8 ] || fail "B: killed with $r of 8 wavelengths (expected 2..7)"
-kill_after "$tmp/B" 5
+kill_after "$tmp/B" 5 "${args[@]}"
 printf '3.5e-07,ee,0,0,1.25e-2' >>"$tmp/B/alpha.csv"
 "$bin" "${args[@]}" -o "$tmp/B" --resume || fail "B: final resume (exit $?)"
 same_tables "$tmp/A" "$tmp/B" "B (killed twice)"

@@ -19,6 +19,24 @@ fail() {
 py=/usr/bin/python3
 [ -x "$py" ] || py=python3
 
+# kill_after DIR N ARGS...: runs `dipolize ARGS -o DIR --resume` in the background (a new
+# run when DIR is absent) and kills it with SIGKILL as soon as N wavelengths are in its
+# tables, or after at most 60 s.
+kill_after() {
+    local dir=$1 n=$2 i
+    shift 2
+    "$bin" "$@" -o "$dir" --resume &
+    pid=$!
+    for i in $(seq 1 6000); do
+        [ "$(rows "$dir")" -ge "$n" ] && break
+        kill -0 "$pid" 2>/dev/null || break
+        sleep 0.01
+    done
+    kill -9 "$pid" 2>/dev/null
+    wait "$pid" 2>/dev/null
+    pid=
+}
+
 # rows DIR: wavelengths with rows in DIR/diagnostics.csv (one header line, comment lines
 # start with #).
 rows() {
